@@ -1,1 +1,42 @@
-fn main() {}
+//! `consolute`: the workbench binary and its subcommands (design §4).
+//!
+//! This file stays thin: argument parsing here, each subcommand's work in `cli/`, the science in
+//! the engine crates.
+
+mod cli;
+
+use std::process::ExitCode;
+
+use clap::{Parser, Subcommand};
+
+/// Consolute: from micrographs and microprobe analyses of exsolved crystals to reintegrated
+/// bulk compositions and solvus temperatures.
+#[derive(Debug, Parser)]
+#[command(name = "consolute", version, about)]
+struct Cli {
+    #[command(subcommand)]
+    command: Option<Command>,
+}
+
+#[derive(Debug, Subcommand)]
+enum Command {
+    /// Structural formulae and end-member fractions from a CSV of spot analyses.
+    Formula(cli::formula::FormulaArgs),
+}
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let result = match cli.command {
+        Some(Command::Formula(args)) => cli::formula::run(&args),
+        None => Err(anyhow::anyhow!(
+            "the workbench is not built yet; run `consolute --help` for the subcommands"
+        )),
+    };
+    match result {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(err) => {
+            eprintln!("error: {err:#}");
+            ExitCode::FAILURE
+        }
+    }
+}

@@ -93,7 +93,7 @@ const ROUNDING: f64 = 1e-9;
 /// With [`PyroxeneIron::ChargeBalance`], all iron is first read as Fe2+ and cations are computed
 /// on 6 oxygens, summing to S; then Fe3+ = 2 X (1 - T/S) with X = 6, T = 4 (Droop 1987,
 /// Mineral. Mag. 51:431, eq. 7), after the cations are scaled by T/S. A sum S < 4 gives no Fe3+
-/// and a [`Flag::CationDeficit`]; a demand beyond the iron present is capped and flagged.
+/// (flagged with [`Flag::CationDeficit`] when S is short by more than the site tolerance); a demand beyond the iron present is capped and flagged.
 ///
 /// ```
 /// use mineral::{Analysis, Oxide, PyroxeneIron, QualityLimits, pyroxene_formula};
@@ -138,8 +138,8 @@ pub fn pyroxene_formula(
             }
             let fe_total = amount(&cations, Cation::Fe2);
             let mut fe3 = 2.0 * OXYGENS * (1.0 - CATIONS / sum);
-            // Rounding in a stoichiometric analysis leaves |fe3| near 1e-15: not a deficit.
-            if fe3 < -ROUNDING {
+            // A sum a little under 4 is analytical scatter: Fe3+ is zero, nothing to flag.
+            if sum < CATIONS - limits.site_tolerance {
                 flags.push(Flag::CationDeficit {
                     sum,
                     ideal: CATIONS,

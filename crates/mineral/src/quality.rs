@@ -107,6 +107,15 @@ pub enum Flag {
 }
 
 impl Flag {
+    /// Whether this is only a note (a value read as zero as the file said) rather than a sign
+    /// that the analysis may be poor.
+    pub fn is_note(&self) -> bool {
+        matches!(
+            self,
+            Flag::BelowDetection { .. } | Flag::NotDetermined { .. }
+        )
+    }
+
     /// A one-line explanation for tables and the message strip.
     pub fn message(&self) -> String {
         match self {
