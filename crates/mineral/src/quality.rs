@@ -175,13 +175,13 @@ pub(crate) fn analysis_flags(analysis: &Analysis, limits: &QualityLimits) -> Vec
             limit_wt: limits.max_total_wt,
         });
     }
-    if let Some(reported) = analysis.reported_total_wt {
-        if (reported - total).abs() > 0.05 {
-            flags.push(Flag::TotalMismatch {
-                reported_wt: reported,
-                computed_wt: total,
-            });
-        }
+    if let Some(reported) = analysis.reported_total_wt
+        && (reported - total).abs() > 0.05
+    {
+        flags.push(Flag::TotalMismatch {
+            reported_wt: reported,
+            computed_wt: total,
+        });
     }
     for (&oxide, &value) in &analysis.oxides_wt {
         if value < 0.0 {
