@@ -3,5 +3,7 @@ pub mod binary;
 pub mod error;
 pub mod model;
 mod numeric;
+pub mod stability;
+pub mod thermometry;
 pub mod units;
 pub use error::SolvusError;

@@ -517,12 +517,7 @@ impl SolutionModel {
     /// The Ab-Or part of the model as `(W_AbOr, W_OrAb)` at T and P, including the coherent
     /// strain term if switched on.
     pub(crate) fn ab_or_join(&self, temperature_k: f64, pressure_bar: f64) -> AbOrJoin {
-        let at = self.at_unchecked(temperature_k, pressure_bar);
-        AbOrJoin {
-            rt: at.rt,
-            wa: at.w[0],
-            wb: at.w[1],
-        }
+        self.at_unchecked(temperature_k, pressure_bar).ab_or_join()
     }
 
     /// Composition the model works with: binary models project onto the Ab-Or join. Returns
@@ -810,6 +805,15 @@ impl ModelAt {
         let h22 = h[2][2] - 2.0 * h[0][2] + h[0][0];
         let h12 = h[1][2] - h[0][1] - h[0][2] + h[0][0];
         (g, grad, [[h11, h12], [h12, h22]])
+    }
+
+    /// The Ab-Or join of this evaluated model in closed form.
+    pub(crate) fn ab_or_join(&self) -> AbOrJoin {
+        AbOrJoin {
+            rt: self.rt,
+            wa: self.w[0],
+            wb: self.w[1],
+        }
     }
 
     /// G only, reduced coordinates.
