@@ -68,7 +68,10 @@ mod tests {
         // Source: definition of scale (length / pixels); 100 um over 250 px = 0.4 um/px.
         let s = PixelSize::from_scale_bar(100.0, 250.0).unwrap();
         assert!((s.pixel_size_um() - 0.4).abs() < 1e-12, "exact arithmetic");
-        assert!((s.area_um2(100.0) - 16.0).abs() < 1e-9, "area scales with the square");
+        assert!(
+            (s.area_um2(100.0) - 16.0).abs() < 1e-9,
+            "area scales with the square"
+        );
         assert!(PixelSize::from_scale_bar(100.0, 0.0).is_err());
         assert!(PixelSize::new(f64::NAN).is_err());
     }

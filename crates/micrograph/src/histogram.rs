@@ -245,7 +245,11 @@ mod tests {
             direct,
             "exact integer counts"
         );
-        let mean0 = data.iter().filter(|&&v| v <= 100).map(|&v| f64::from(v)).sum::<f64>()
+        let mean0 = data
+            .iter()
+            .filter(|&&v| v <= 100)
+            .map(|&v| f64::from(v))
+            .sum::<f64>()
             / direct[0] as f64;
         assert!(
             (stats[0].mean_gray.unwrap() - mean0).abs() < 1e-9,

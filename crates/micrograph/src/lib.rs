@@ -1,7 +1,12 @@
 //! Placeholder docs (rewritten below).
+pub mod bootstrap;
 pub mod calibration;
+pub mod control;
+pub mod correct;
 pub mod error;
 pub mod histogram;
 pub mod load;
 pub mod roi;
+pub mod segment;
+pub mod synthetic;
 pub mod threshold;

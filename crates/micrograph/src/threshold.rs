@@ -269,7 +269,11 @@ mod tests {
             .map(|i| {
                 let x = i % 64;
                 let noise = (i.wrapping_mul(2654435761) >> 27) as u8;
-                if (x / 8) % 3 == 0 { 170 + noise } else { 80 + noise }
+                if (x / 8) % 3 == 0 {
+                    170 + noise
+                } else {
+                    80 + noise
+                }
             })
             .collect();
         let img = image::GrayImage::from_raw(64, 64, data.clone()).unwrap();

@@ -1,0 +1,690 @@
+//! The segmentation pipeline: voids with rims, grey levels, classification, small-feature
+//! clean-up, modal fractions with a block-bootstrap interval, threshold sensitivity, and the
+//! blur-insensitive second estimate by linear unmixing.
+
+use image::GrayImage;
+use imageproc::distance_transform::{Norm, distance_transform};
+use imageproc::region_labelling::{Connectivity, connected_components};
+use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
+
+use crate::bootstrap::{TileStats, fraction_ci95, statistic_ci95};
+use crate::calibration::PixelSize;
+use crate::control::Control;
+use crate::error::{MicrographError, Result};
+use crate::histogram::Histogram;
+use crate::load::GrayPlane;
+use crate::roi::Mask;
+use crate::threshold::{multi_otsu_levels, refine_levels_to_mode_midpoints};
+
+/// Class value in a class map for pixels that are not measured (outside the region, voids,
+/// rims).
+pub const NOT_MEASURED: u8 = u8::MAX;
+
+/// How the grey levels between the phases are chosen.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[non_exhaustive]
+pub enum LevelChoice {
+    /// The user's levels (grey values, increasing; `classes - 1` of them).
+    Manual(Vec<u16>),
+    /// Otsu (2 classes) or multi-level Otsu on the measured histogram.
+    Otsu,
+    /// Otsu, then each level moved to the midpoint between the modes of its two classes
+    /// (unbiased by symmetric edge blur; see
+    /// [`refine_levels_to_mode_midpoints`](crate::threshold::refine_levels_to_mode_midpoints)).
+    OtsuMidpoint,
+}
+
+/// How voids (cracks, pores, epoxy) are found.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[non_exhaustive]
+pub enum VoidDetection {
+    /// No void detection.
+    Off,
+    /// Multi-level Otsu with one class more than the phases; the darkest class is taken as
+    /// voids when the histogram has a real valley at its level (density under a tenth of the
+    /// darkest phase's peak, common practice) and it covers less than half of the region.
+    Auto,
+    /// Pixels at or below this grey value are voids.
+    AtOrBelow(u16),
+}
+
+/// Settings of [`segment`]. `Default` gives 2 phases, Otsu levels refined to mode midpoints,
+/// automatic voids with a 2-pixel rim, features under 4 px removed.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct SegmentSettings {
+    /// Number of mineral phases N (2..=16).
+    pub classes: usize,
+    /// Level choice.
+    pub levels: LevelChoice,
+    /// Histogram binning: bins of `2^bin_shift` grey values (0 = full depth).
+    pub bin_shift: u32,
+    /// Void detection.
+    pub voids: VoidDetection,
+    /// Rim excluded around voids, in pixels: as wide as the edge blur.
+    pub rim_px: u8,
+    /// Connected features (8-connected, per phase) smaller than this are merged into the
+    /// surrounding phase. 0 or 1 = off.
+    pub min_feature_px: u32,
+    /// Tile side for the block bootstrap (None = automatic: image side / 8, 32..=512 px).
+    pub tile_px: Option<u32>,
+    /// Bootstrap resamples.
+    pub bootstrap_resamples: u32,
+    /// Seed of the bootstrap.
+    pub seed: u64,
+    /// Threshold sensitivity step in grey levels (None = 1% of full scale).
+    pub sensitivity_step: Option<u16>,
+    /// Pixels at least this far (Euclidean distance transform) from any other class are cores
+    /// for the pure phase levels of the unmixing estimate.
+    pub core_distance_px: u8,
+    /// Pixel size for results in µm.
+    pub pixel_size: Option<PixelSize>,
+}
+
+impl Default for SegmentSettings {
+    fn default() -> Self {
+        Self {
+            classes: 2,
+            levels: LevelChoice::OtsuMidpoint,
+            bin_shift: 0,
+            voids: VoidDetection::Auto,
+            rim_px: 2,
+            min_feature_px: 4,
+            tile_px: None,
+            bootstrap_resamples: 1000,
+            seed: 0x5EED,
+            sensitivity_step: None,
+            core_distance_px: 3,
+            pixel_size: None,
+        }
+    }
+}
+
+/// One mineral phase of the result.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PhaseResult {
+    /// Label (`phase 1` darkest ...).
+    pub label: String,
+    /// Pixels classified as this phase (after clean-up).
+    pub pixels: u64,
+    /// Fraction of the measured area.
+    pub area_fraction: f64,
+    /// Mean grey of its pixels.
+    pub mean_gray: f64,
+    /// 95% block-bootstrap interval (None with fewer than 2 tiles).
+    pub area_fraction_ci95: Option<[f64; 2]>,
+    /// Area in µm² (with a pixel size).
+    pub area_um2: Option<f64>,
+}
+
+/// Fractions with one level moved down and up by the step.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Sensitivity {
+    /// Step in grey levels.
+    pub step: u16,
+    /// Per level: fractions of every phase with that level at `level - step`.
+    pub minus: Vec<Vec<f64>>,
+    /// Per level: fractions with that level at `level + step`.
+    pub plus: Vec<Vec<f64>>,
+    /// Per phase: the largest absolute change of its fraction over all those moves.
+    pub max_abs_change: Vec<f64>,
+}
+
+/// Second estimate of two-phase fractions by linear unmixing of the mean grey.
+///
+/// Edge blur redistributes grey but preserves the region's mean, so with pure levels `g_d`
+/// (dark) and `g_b` (bright), `f_dark = (g_b - mean) / (g_b - g_d)`. Source: the linear mixing
+/// model of area fractions, e.g. Adams, Smith & Johnson (1986), J. Geophys. Res. 91(B8):8098
+/// (spectral mixture analysis); for blur, mean preservation by a normalised kernel.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Unmixing {
+    /// Pure levels (median grey of core pixels), dark then bright.
+    pub pure_levels: [f64; 2],
+    /// Core pixels used for each level.
+    pub core_pixels: [u64; 2],
+    /// Mean grey of the measured pixels.
+    pub mean_gray: f64,
+    /// Fractions dark, bright.
+    pub area_fraction: [f64; 2],
+    /// 95% block-bootstrap intervals (pure levels held fixed).
+    pub area_fraction_ci95: Option<[[f64; 2]; 2]>,
+    /// True when the intervals of the two estimates (classification, unmixing) do not overlap.
+    pub disagrees: bool,
+}
+
+/// The result of [`segment`].
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Segmentation {
+    /// Image width.
+    pub width: u32,
+    /// Image height.
+    pub height: u32,
+    /// Pixels in the region of interest.
+    pub region_pixels: u64,
+    /// Pixels measured (region minus voids and rims).
+    pub measured_pixels: u64,
+    /// Voids plus rims as a fraction of the region.
+    pub excluded_fraction: f64,
+    /// Void level used (None = no voids).
+    pub void_level: Option<u16>,
+    /// Rim width.
+    pub rim_px: u8,
+    /// Levels between phases (grey values) actually used.
+    pub levels: Vec<u16>,
+    /// Otsu levels on the measured histogram, for reference.
+    pub otsu_levels: Option<Vec<u16>>,
+    /// Phases dark to bright.
+    pub phases: Vec<PhaseResult>,
+    /// Threshold sensitivity.
+    pub sensitivity: Sensitivity,
+    /// Linear-unmixing estimate (two phases only).
+    pub unmixing: Option<Unmixing>,
+    /// Bootstrap tile side.
+    pub tile_px: u32,
+    /// Per-tile sums (for combining micrographs).
+    pub tiles: Vec<TileStats>,
+    /// Pixel size used.
+    pub pixel_size_um: Option<f64>,
+    /// Warnings for the user.
+    pub warnings: Vec<String>,
+    /// Histogram of the measured pixels (drives instant level changes).
+    pub histogram: Histogram,
+    /// Class per pixel (`NOT_MEASURED` outside), row-major.
+    #[serde(skip)]
+    pub class_map: Vec<u8>,
+}
+
+impl Segmentation {
+    /// Fractions of the measured area for other levels, from the histogram alone: O(classes),
+    /// no pass over the pixels. Equal to the pixel counts of a new classification before
+    /// small-feature clean-up.
+    pub fn fractions_at(&self, levels: &[u16]) -> Vec<f64> {
+        fractions_from_histogram(&self.histogram, levels)
+    }
+}
+
+/// Phase fractions for `levels` from a histogram, in O(classes).
+pub fn fractions_from_histogram(h: &Histogram, levels: &[u16]) -> Vec<f64> {
+    let total = h.total().max(1) as f64;
+    h.class_stats(levels)
+        .iter()
+        .map(|s| s.pixels as f64 / total)
+        .collect()
+}
+
+/// Fractions with each level moved by `-step` and `+step` (one at a time).
+pub fn sensitivity(h: &Histogram, levels: &[u16], step: u16) -> Sensitivity {
+    let base = fractions_from_histogram(h, levels);
+    let mut minus = Vec::new();
+    let mut plus = Vec::new();
+    let mut max_abs_change = vec![0.0f64; levels.len() + 1];
+    for k in 0..levels.len() {
+        for (sign, out) in [(-1i32, &mut minus), (1, &mut plus)] {
+            let mut l = levels.to_vec();
+            l[k] = (i32::from(l[k]) + sign * i32::from(step)).clamp(0, i32::from(h.max_value()))
+                as u16;
+            let f = fractions_from_histogram(h, &l);
+            for (m, (a, b)) in max_abs_change.iter_mut().zip(f.iter().zip(&base)) {
+                *m = m.max((a - b).abs());
+            }
+            out.push(f);
+        }
+    }
+    Sensitivity {
+        step,
+        minus,
+        plus,
+        max_abs_change,
+    }
+}
+
+/// Automatic void level (see [`VoidDetection::Auto`]).
+pub fn auto_void_level(h: &Histogram, classes: usize) -> Option<u16> {
+    let levels = multi_otsu_levels(h, classes + 1).ok()?;
+    let bins = h.class_bins(&levels);
+    let (n0, _) = h.range_count_sum(bins[0].0, bins[0].1);
+    if n0 == 0 || (n0 as f64) >= 0.5 * h.total() as f64 {
+        return None;
+    }
+    // Valley test on the histogram smoothed over +/- 1% of the bins: the density at the void
+    // level must be under a tenth of the darkest phase's peak density (a true gap, not a split
+    // of one phase's noise peak, where the density at the level is near the peak).
+    let half = (h.len() / 100).max(1);
+    let smoothed = |b: usize| {
+        let lo = b.saturating_sub(half);
+        let hi = (b + half + 1).min(h.len());
+        h.range_count_sum(lo, hi).0
+    };
+    let at_level = smoothed(h.bin_of(levels[0]));
+    let peak = (bins[1].0..bins[1].1).map(smoothed).max().unwrap_or(0);
+    (peak > 0 && (at_level as f64) < 0.1 * peak as f64).then_some(levels[0])
+}
+
+fn mask_image(width: u32, height: u32, data: Vec<u8>) -> Result<GrayImage> {
+    GrayImage::from_raw(width, height, data)
+        .ok_or_else(|| MicrographError::Mismatch("mask buffer size".to_string()))
+}
+
+/// Runs the pipeline on a greyscale plane within a region (see the crate docs for the steps).
+pub fn segment(
+    plane: &GrayPlane,
+    region: &Mask,
+    settings: &SegmentSettings,
+    control: &Control,
+) -> Result<Segmentation> {
+    let s = settings;
+    if region.width != plane.width || region.height != plane.height {
+        return Err(MicrographError::Mismatch(format!(
+            "region is {} x {}, image {} x {}",
+            region.width, region.height, plane.width, plane.height
+        )));
+    }
+    if !(2..=16).contains(&s.classes) {
+        return Err(MicrographError::InvalidParameter {
+            name: "classes",
+            value: s.classes.to_string(),
+            expected: "2 to 16 phases".to_string(),
+        });
+    }
+    let (w, h) = (plane.width, plane.height);
+    control.step(0.0)?;
+    let region_hist = Histogram::of_region(plane, Some(&region.bits), s.bin_shift)?;
+    let region_pixels = region_hist.total();
+    if region_pixels == 0 {
+        return Err(MicrographError::EmptyRegion {
+            reason: "the region of interest covers no pixel centre".to_string(),
+        });
+    }
+    control.step(0.1)?;
+
+    // Voids and their rims.
+    let void_level = match s.voids {
+        VoidDetection::Off => None,
+        VoidDetection::Auto => auto_void_level(&region_hist, s.classes),
+        VoidDetection::AtOrBelow(g) => Some(g),
+    };
+    let mut class_map: Vec<u8> = region
+        .bits
+        .par_iter()
+        .map(|&b| if b { 0 } else { NOT_MEASURED })
+        .collect();
+    if let Some(vl) = void_level {
+        let voids: Vec<u8> = plane
+            .data
+            .par_iter()
+            .zip(&region.bits)
+            .map(|(&v, &r)| if r && v <= vl { 255 } else { 0 })
+            .collect();
+        let grown = if s.rim_px > 0 {
+            imageproc::morphology::dilate(&mask_image(w, h, voids)?, Norm::L2, s.rim_px).into_raw()
+        } else {
+            voids
+        };
+        class_map
+            .par_iter_mut()
+            .zip(grown.par_iter())
+            .for_each(|(c, &g)| {
+                if g != 0 {
+                    *c = NOT_MEASURED;
+                }
+            });
+    }
+    control.step(0.3)?;
+    let measured: Vec<bool> = class_map.par_iter().map(|&c| c != NOT_MEASURED).collect();
+    let hist = Histogram::of_region(plane, Some(&measured), s.bin_shift)?;
+    drop(measured);
+    let measured_pixels = hist.total();
+    if measured_pixels == 0 {
+        return Err(MicrographError::EmptyRegion {
+            reason: "every pixel of the region is a void or a void rim".to_string(),
+        });
+    }
+
+    // Levels.
+    let (levels, otsu_levels) = match &s.levels {
+        LevelChoice::Manual(l) => {
+            if l.len() != s.classes - 1 || l.windows(2).any(|p| p[0] >= p[1]) {
+                return Err(MicrographError::InvalidParameter {
+                    name: "level",
+                    value: format!("{l:?}"),
+                    expected: format!("{} strictly increasing grey levels", s.classes - 1),
+                });
+            }
+            (l.clone(), None)
+        }
+        LevelChoice::Otsu => {
+            let o = multi_otsu_levels(&hist, s.classes)?;
+            (o.clone(), Some(o))
+        }
+        LevelChoice::OtsuMidpoint => {
+            let o = multi_otsu_levels(&hist, s.classes)?;
+            let smooth = (hist.len() / 256).max(1);
+            (refine_levels_to_mode_midpoints(&hist, &o, smooth), Some(o))
+        }
+    };
+    control.step(0.4)?;
+
+    // Classification through a lookup table over bins.
+    let lut: Vec<u8> = {
+        let mut lut = vec![0u8; hist.len()];
+        for (c, (lo, hi)) in hist.class_bins(&levels).into_iter().enumerate() {
+            lut[lo..hi].iter_mut().for_each(|x| *x = c as u8);
+        }
+        lut
+    };
+    let shift = s.bin_shift;
+    class_map
+        .par_iter_mut()
+        .zip(plane.data.par_iter())
+        .for_each(|(c, &v)| {
+            if *c != NOT_MEASURED {
+                *c = lut[usize::from(v) >> shift];
+            }
+        });
+    control.step(0.5)?;
+    if s.min_feature_px > 1 {
+        remove_small_features(&mut class_map, w, h, s.min_feature_px, s.classes)?;
+    }
+    control.step(0.7)?;
+
+    // Tiles: counts and grey sums.
+    let tile_px = s
+        .tile_px
+        .unwrap_or_else(|| (w.min(h) / 8).clamp(32, 512))
+        .max(1);
+    let tiles = tile_stats(plane, &class_map, s.classes, tile_px);
+    let mut class_px = vec![0f64; s.classes];
+    for t in &tiles {
+        for (a, b) in class_px.iter_mut().zip(&t.class_area) {
+            *a += b;
+        }
+    }
+    let class_gray = class_gray_sums(plane, &class_map, s.classes);
+    let ci = fraction_ci95(&tiles, s.classes, s.bootstrap_resamples, s.seed);
+    control.step(0.8)?;
+    let total = measured_pixels as f64;
+    let phases: Vec<PhaseResult> = (0..s.classes)
+        .map(|c| PhaseResult {
+            label: format!("phase {}", c + 1),
+            pixels: class_px[c] as u64,
+            area_fraction: class_px[c] / total,
+            mean_gray: if class_px[c] > 0.0 {
+                class_gray[c] / class_px[c]
+            } else {
+                0.0
+            },
+            area_fraction_ci95: ci.as_ref().map(|v| v[c]),
+            area_um2: s.pixel_size.map(|p| p.area_um2(class_px[c])),
+        })
+        .collect();
+    let step = s
+        .sensitivity_step
+        .unwrap_or_else(|| (plane.max_value / 100).max(1));
+    let sens = sensitivity(&hist, &levels, step);
+
+    let mut warnings = Vec::new();
+    if phases.iter().any(|p| p.pixels == 0) {
+        warnings.push("a phase has no pixels: fewer phases than classes requested?".to_string());
+    }
+    if ci.is_none() {
+        warnings.push(
+            "too few tiles for a bootstrap interval: use a larger region or smaller tiles"
+                .to_string(),
+        );
+    }
+    let unmixing = if s.classes == 2 {
+        let u = unmix(plane, &class_map, &hist, &tiles, s)?;
+        if let Some(u) = &u {
+            let overlap = |a: Option<[f64; 2]>, b: Option<[f64; 2]>| match (a, b) {
+                (Some(a), Some(b)) => a[0] <= b[1] && b[0] <= a[1],
+                _ => true,
+            };
+            let disagrees = !overlap(
+                phases[1].area_fraction_ci95,
+                u.area_fraction_ci95.map(|c| c[1]),
+            );
+            if disagrees {
+                warnings.push(format!(
+                    "classification ({:.4}) and linear unmixing ({:.4}) disagree beyond their intervals: check levels, blur and flattening",
+                    phases[1].area_fraction, u.area_fraction[1]
+                ));
+            }
+            Some(Unmixing {
+                disagrees,
+                ..u.clone()
+            })
+        } else {
+            warnings
+                .push("no core pixels far enough from edges for the unmixing estimate".to_string());
+            None
+        }
+    } else {
+        None
+    };
+    control.step(1.0)?;
+    Ok(Segmentation {
+        width: w,
+        height: h,
+        region_pixels,
+        measured_pixels,
+        excluded_fraction: 1.0 - measured_pixels as f64 / region_pixels as f64,
+        void_level,
+        rim_px: if void_level.is_some() { s.rim_px } else { 0 },
+        levels,
+        otsu_levels,
+        phases,
+        sensitivity: sens,
+        unmixing,
+        tile_px,
+        tiles,
+        pixel_size_um: s.pixel_size.map(|p| p.pixel_size_um()),
+        warnings,
+        histogram: hist,
+        class_map,
+    })
+}
+
+/// Per-tile measured pixels, pixels per class and grey sums.
+pub fn tile_stats(
+    plane: &GrayPlane,
+    class_map: &[u8],
+    classes: usize,
+    tile_px: u32,
+) -> Vec<TileStats> {
+    let (w, h) = (plane.width as usize, plane.height as usize);
+    let t = tile_px as usize;
+    let tx = w.div_ceil(t);
+    let ty = h.div_ceil(t);
+    (0..ty)
+        .into_par_iter()
+        .flat_map_iter(|by| {
+            let mut row_tiles = vec![
+                TileStats {
+                    measured: 0.0,
+                    class_area: vec![0.0; classes],
+                    gray_sum: 0.0,
+                };
+                tx
+            ];
+            let mut counts = vec![vec![0u64; classes]; tx];
+            let mut sums = vec![0u64; tx];
+            for y in by * t..((by + 1) * t).min(h) {
+                let row = y * w;
+                for x in 0..w {
+                    let c = class_map[row + x];
+                    if c != NOT_MEASURED {
+                        let i = x / t;
+                        counts[i][usize::from(c)] += 1;
+                        sums[i] += u64::from(plane.data[row + x]);
+                    }
+                }
+            }
+            for (i, tile) in row_tiles.iter_mut().enumerate() {
+                tile.class_area = counts[i].iter().map(|&c| c as f64).collect();
+                tile.measured = counts[i].iter().sum::<u64>() as f64;
+                tile.gray_sum = sums[i] as f64;
+            }
+            row_tiles
+        })
+        .collect()
+}
+
+fn class_gray_sums(plane: &GrayPlane, class_map: &[u8], classes: usize) -> Vec<f64> {
+    plane
+        .data
+        .par_chunks(1 << 16)
+        .zip(class_map.par_chunks(1 << 16))
+        .fold(
+            || vec![0u64; classes],
+            |mut acc, (v, c)| {
+                for (&v, &c) in v.iter().zip(c) {
+                    if c != NOT_MEASURED {
+                        acc[usize::from(c)] += u64::from(v);
+                    }
+                }
+                acc
+            },
+        )
+        .reduce(
+            || vec![0u64; classes],
+            |mut a, b| {
+                a.iter_mut().zip(b).for_each(|(x, y)| *x += y);
+                a
+            },
+        )
+        .into_iter()
+        .map(|s| s as f64)
+        .collect()
+}
+
+/// Merges 8-connected features of one class smaller than `min_px` into the class most common
+/// along their border. Labelling by imageproc's `connected_components` (two-pass union-find,
+/// Rosenfeld & Pfaltz 1966, "Sequential operations in digital picture processing", J. ACM
+/// 13(4):471-494).
+pub fn remove_small_features(
+    class_map: &mut [u8],
+    width: u32,
+    height: u32,
+    min_px: u32,
+    classes: usize,
+) -> Result<()> {
+    let img = mask_image(width, height, class_map.to_vec())?;
+    let labels =
+        connected_components(&img, Connectivity::Eight, image::Luma([NOT_MEASURED])).into_raw();
+    drop(img);
+    let max_label = labels.par_iter().copied().max().unwrap_or(0) as usize;
+    let mut sizes = vec![0u32; max_label + 1];
+    for &l in &labels {
+        sizes[l as usize] = sizes[l as usize].saturating_add(1);
+    }
+    let mut small_index = vec![u32::MAX; max_label + 1];
+    let mut n_small = 0u32;
+    for (l, &sz) in sizes.iter().enumerate().skip(1) {
+        if sz < min_px {
+            small_index[l] = n_small;
+            n_small += 1;
+        }
+    }
+    if n_small == 0 {
+        return Ok(());
+    }
+    let mut votes = vec![vec![0u32; classes]; n_small as usize];
+    let (w, h) = (width as usize, height as usize);
+    for y in 0..h {
+        for x in 0..w {
+            let i = y * w + x;
+            let si = small_index[labels[i] as usize];
+            if labels[i] == 0 || si == u32::MAX {
+                continue;
+            }
+            let mut vote = |j: usize| {
+                if labels[j] != labels[i] && class_map[j] != NOT_MEASURED {
+                    votes[si as usize][usize::from(class_map[j])] += 1;
+                }
+            };
+            if x > 0 {
+                vote(i - 1);
+            }
+            if x + 1 < w {
+                vote(i + 1);
+            }
+            if y > 0 {
+                vote(i - w);
+            }
+            if y + 1 < h {
+                vote(i + w);
+            }
+        }
+    }
+    let new_class: Vec<Option<u8>> = votes
+        .iter()
+        .map(|v| {
+            let (best, &n) = v.iter().enumerate().max_by_key(|&(_, n)| *n)?;
+            (n > 0).then_some(best as u8)
+        })
+        .collect();
+    class_map
+        .par_iter_mut()
+        .zip(labels.par_iter())
+        .for_each(|(c, &l)| {
+            let si = small_index[l as usize];
+            if l != 0 && si != u32::MAX {
+                if let Some(nc) = new_class[si as usize] {
+                    *c = nc;
+                }
+            }
+        });
+    Ok(())
+}
+
+/// Pixels of class `c` at least `d` px (Euclidean) from any pixel not of class `c`.
+fn core_mask(class_map: &[u8], width: u32, height: u32, c: u8, d: u8) -> Result<Vec<bool>> {
+    // imageproc: distance to the nearest foreground (non-zero) pixel; foreground = other class.
+    let fg: Vec<u8> = class_map.par_iter().map(|&k| u8::from(k != c)).collect();
+    let dist = distance_transform(&mask_image(width, height, fg)?, Norm::L2).into_raw();
+    Ok(dist.par_iter().map(|&v| v >= d).collect())
+}
+
+fn unmix(
+    plane: &GrayPlane,
+    class_map: &[u8],
+    hist: &Histogram,
+    tiles: &[TileStats],
+    s: &SegmentSettings,
+) -> Result<Option<Unmixing>> {
+    let mut pure = [0.0f64; 2];
+    let mut core_pixels = [0u64; 2];
+    for c in 0..2u8 {
+        let core = core_mask(class_map, plane.width, plane.height, c, s.core_distance_px)?;
+        let ch = Histogram::of_region(plane, Some(&core), 0)?;
+        core_pixels[usize::from(c)] = ch.total();
+        match ch.quantile(0.5) {
+            Some(m) => pure[usize::from(c)] = m,
+            None => return Ok(None),
+        }
+    }
+    let measured: f64 = tiles.iter().map(|t| t.measured).sum();
+    if measured <= 0.0 || hist.total() == 0 {
+        return Ok(None);
+    }
+    let mean = tiles.iter().map(|t| t.gray_sum).sum::<f64>() / measured;
+    let (gd, gb) = (pure[0], pure[1]);
+    if gb - gd <= 0.0 {
+        return Ok(None);
+    }
+    let f_dark = ((gb - mean) / (gb - gd)).clamp(0.0, 1.0);
+    let ci = statistic_ci95(tiles, s.bootstrap_resamples, s.seed ^ 0xA5A5, 2, |t| {
+        let m = t.gray_sum / t.measured;
+        let fd = ((gb - m) / (gb - gd)).clamp(0.0, 1.0);
+        vec![fd, 1.0 - fd]
+    })
+    .map(|v| [v[0], v[1]]);
+    Ok(Some(Unmixing {
+        pure_levels: pure,
+        core_pixels,
+        mean_gray: mean,
+        area_fraction: [f_dark, 1.0 - f_dark],
+        area_fraction_ci95: ci,
+        disagrees: false,
+    }))
+}

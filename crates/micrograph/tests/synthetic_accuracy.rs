@@ -1,0 +1,92 @@
+//! Recovered area fractions on seeded synthetic micrographs of known construction.
+//!
+//! Source of the truth: the construction itself (exact lamella coverage of each pixel by 8 x 8
+//! supersampling of the analytic lamella geometry), averaged over the pixels the pipeline
+//! measured; the acceptance limit is 0.5 volume % (0.005 as a fraction).
+#![allow(clippy::unwrap_used)]
+
+use micrograph::control::Control;
+use micrograph::correct::flatten;
+use micrograph::histogram::Histogram;
+use micrograph::roi::Mask;
+use micrograph::segment::{NOT_MEASURED, SegmentSettings, auto_void_level, segment};
+use micrograph::synthetic::{Synthetic, SyntheticSpec};
+
+fn truth_over_measured(s: &Synthetic, class_map: &[u8]) -> f64 {
+    let (mut sum, mut n) = (0.0f64, 0usize);
+    for (c, &l) in class_map.iter().zip(&s.lamella_coverage) {
+        if *c != NOT_MEASURED {
+            sum += f64::from(l);
+            n += 1;
+        }
+    }
+    sum / n as f64
+}
+
+fn run(bits16: bool, seed: u64) -> (f64, f64, f64, f64) {
+    let spec = SyntheticSpec {
+        seed,
+        ..SyntheticSpec::default()
+    };
+    let syn = spec.generate();
+    let plane = syn.plane(spec.width, spec.height, bits16).unwrap();
+    let region = Mask::full(spec.width, spec.height);
+    let rh = Histogram::of_region(&plane, None, 0).unwrap();
+    let void = auto_void_level(&rh, 2);
+    assert!(void.is_some(), "the pore and crack must be found as voids");
+    let (flat, _) = flatten(&plane, &region, 2, 1, void, &Control::none()).unwrap();
+    let seg = segment(
+        &flat,
+        &region,
+        &SegmentSettings::default(),
+        &Control::none(),
+    )
+    .unwrap();
+    let truth = truth_over_measured(&syn, &seg.class_map);
+    let got = seg.phases[1].area_fraction;
+    let unmixed = seg.unmixing.as_ref().unwrap().area_fraction[1];
+    let true_void: f64 = syn.void_coverage.iter().map(|&v| f64::from(v)).sum::<f64>()
+        / syn.void_coverage.len() as f64;
+    assert!(
+        seg.excluded_fraction > true_void,
+        "excluded {} must hold the voids ({true_void}) and their rims",
+        seg.excluded_fraction
+    );
+    (got, truth, unmixed, seg.excluded_fraction)
+}
+
+#[test]
+fn eight_bit_recovers_fraction_within_half_a_percent() {
+    for seed in [1, 2, 3] {
+        let (got, truth, unmixed, excl) = run(false, seed);
+        eprintln!(
+            "8-bit seed {seed}: got {got:.5} truth {truth:.5} unmixed {unmixed:.5} excluded {excl:.4}"
+        );
+        assert!(
+            (got - truth).abs() < 0.005,
+            "classification {got} vs truth {truth}"
+        );
+        assert!(
+            (unmixed - truth).abs() < 0.005,
+            "unmixing {unmixed} vs truth {truth}"
+        );
+    }
+}
+
+#[test]
+fn sixteen_bit_recovers_fraction_within_half_a_percent() {
+    for seed in [4, 5] {
+        let (got, truth, unmixed, excl) = run(true, seed);
+        eprintln!(
+            "16-bit seed {seed}: got {got:.5} truth {truth:.5} unmixed {unmixed:.5} excluded {excl:.4}"
+        );
+        assert!(
+            (got - truth).abs() < 0.005,
+            "classification {got} vs truth {truth}"
+        );
+        assert!(
+            (unmixed - truth).abs() < 0.005,
+            "unmixing {unmixed} vs truth {truth}"
+        );
+    }
+}
