@@ -6,4 +6,5 @@ mod numeric;
 pub mod stability;
 pub mod thermometry;
 pub mod units;
+mod user;
 pub use error::SolvusError;

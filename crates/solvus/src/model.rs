@@ -184,6 +184,7 @@ impl Margules {
 
 /// The seven Margules parameters of the ternary model (binary models leave the An terms zero).
 #[derive(Debug, Clone, Copy, PartialEq, Default, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
 pub struct MargulesSet {
     /// `W_AbOr`: Ab dilute in Or.
     pub ab_or: Margules,
