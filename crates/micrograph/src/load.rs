@@ -229,16 +229,23 @@ pub fn load(path: &Path, options: &LoadOptions) -> Result<Micrograph> {
     if meta.len() == 0 {
         return Err(MicrographError::EmptyFile { path: path_buf });
     }
-    let mut reader = ImageReader::open(path)
-        .map_err(io_err)?
-        .with_guessed_format()
-        .map_err(io_err)?;
-    if reader.format().is_none() {
-        return Err(MicrographError::UnsupportedFormat {
-            path: path_buf,
-            detail: "the first bytes match no known image signature".to_string(),
-        });
+    // Recognise the format by content, whatever the extension says.
+    let mut head = Vec::with_capacity(16);
+    {
+        use std::io::Read;
+        std::fs::File::open(path)
+            .map_err(io_err)?
+            .take(16)
+            .read_to_end(&mut head)
+            .map_err(io_err)?;
     }
+    let format = image::guess_format(&head).map_err(|_| MicrographError::UnsupportedFormat {
+        path: path_buf.clone(),
+        detail: "the first bytes match no image signature (the file extension is not trusted)"
+            .to_string(),
+    })?;
+    let mut reader = ImageReader::open(path).map_err(io_err)?;
+    reader.set_format(format);
     let mut limits = Limits::default();
     limits.max_alloc = Some(options.memory_budget_bytes);
     reader.limits(limits);

@@ -249,3 +249,47 @@ mod tests {
         assert!(err.to_string().contains("include polygon 0"), "{err}");
     }
 }
+
+#[cfg(test)]
+mod prop_tests {
+    use super::*;
+    use proptest::prelude::*;
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(300))]
+        /// Source: the bound, from the pixel-centre rule: only pixels cut by the
+        /// boundary can be miscounted, each by at most its uncovered (or covered) part, so
+        /// |pixel count - shoelace area| <= perimeter / 2 (plus 1e-9 for rounding).
+        #[test]
+        fn pixel_count_within_half_perimeter_of_shoelace_area(
+            cx in 20.0f64..60.0, cy in 20.0f64..60.0,
+            radii in proptest::collection::vec(3.0f64..19.0, 3..12),
+            turn in 0.0f64..1.0,
+        ) {
+            let n = radii.len();
+            let poly = Polygon(
+                radii.iter().enumerate().map(|(i, r)| {
+                    let a = std::f64::consts::TAU * (i as f64 + turn) / n as f64;
+                    [cx + r * a.cos(), cy + r * a.sin()]
+                }).collect(),
+            );
+            let roi = Roi { include: vec![poly.clone()], exclude: vec![] };
+            let count = roi.rasterise(80, 80).unwrap().count() as f64;
+            let area = poly.area_px2();
+            prop_assert!((count - area).abs() <= poly.perimeter_px() / 2.0 + 1e-9,
+                "count {count}, area {area}, perimeter {}", poly.perimeter_px());
+        }
+
+        /// Exclusions remove exactly the pixels of the exclude polygon that were inside.
+        #[test]
+        fn exclusion_is_set_difference(x0 in 5.0f64..30.0, w in 3.0f64..20.0) {
+            let sq = |a: f64, b: f64, s: f64| Polygon(vec![[a, b], [a + s, b], [a + s, b + s], [a, b + s]]);
+            let inc = Roi { include: vec![sq(2.0, 2.0, 50.0)], exclude: vec![] }.rasterise(60, 60).unwrap();
+            let exc = Roi { include: vec![sq(x0, x0, w)], exclude: vec![] }.rasterise(60, 60).unwrap();
+            let both = Roi { include: vec![sq(2.0, 2.0, 50.0)], exclude: vec![sq(x0, x0, w)] }.rasterise(60, 60).unwrap();
+            for i in 0..3600 {
+                prop_assert_eq!(both.bits[i], inc.bits[i] && !exc.bits[i]);
+            }
+        }
+    }
+}
