@@ -4,6 +4,7 @@ pub mod error;
 pub mod model;
 mod numeric;
 pub mod stability;
+pub mod ternary;
 pub mod thermometry;
 pub mod units;
 mod user;

@@ -107,7 +107,7 @@ fn geometry(model: &SolutionModel, x: &Composition) -> Geometry {
 }
 
 /// Relative threshold below which a tangent-plane distance counts as negative (times RT).
-const TPD_TOLERANCE: f64 = 1e-9;
+pub(crate) const TPD_TOLERANCE: f64 = 1e-9;
 
 /// Tangent-plane stability test (Michelsen 1982) of a composition at T (K) and P (bar).
 ///
@@ -192,7 +192,7 @@ fn tpd_min_join<J: Join>(j: &J, x0: f64) -> (f64, f64) {
 const GRID_N: usize = 24;
 
 /// Minimum of the tangent-plane distance over the triangle, from interior point `y0`.
-fn tpd_min_2d(at: &ModelAt, y0: [f64; 2], warm: Option<[f64; 2]>) -> (f64, [f64; 2]) {
+pub(crate) fn tpd_min_2d(at: &ModelAt, y0: [f64; 2], warm: Option<[f64; 2]>) -> (f64, [f64; 2]) {
     let (g0, r0, _) = at.reduced(y0);
     let tpd = |y: [f64; 2]| at.g_reduced(y) - g0 - r0[0] * (y[0] - y0[0]) - r0[1] * (y[1] - y0[1]);
     let mut best_all = (f64::INFINITY, y0);
