@@ -22,12 +22,15 @@ struct Cli {
 enum Command {
     /// Structural formulae and end-member fractions from a CSV of spot analyses.
     Formula(cli::formula::FormulaArgs),
+    /// Modal fractions of the mineral phases of a micrograph (voids excluded, with intervals).
+    Segment(cli::segment::SegmentArgs),
 }
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
         Some(Command::Formula(args)) => cli::formula::run(&args),
+        Some(Command::Segment(args)) => cli::segment::run(&args),
         None => Err(anyhow::anyhow!(
             "the workbench is not built yet; run `consolute --help` for the subcommands"
         )),

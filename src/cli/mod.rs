@@ -2,3 +2,4 @@
 //! with `--json` it prints one JSON object on stdout, otherwise a readable table.
 
 pub mod formula;
+pub mod segment;
