@@ -244,7 +244,7 @@ pub fn auto_void_level(h: &Histogram, classes: usize) -> Option<u16> {
     let bins = h.class_bins(&levels);
     let (n0, _) = h.range_count_sum(bins[0].0, bins[0].1);
     if n0 == 0 || (n0 as f64) >= 0.5 * h.total() as f64 {
-        return None;
+        return dark_tail_void_level(h, classes);
     }
     // Valley test on the histogram smoothed over +/- 1% of the bins: the density at the void
     // level must be under a tenth of the darkest phase's peak density (a true gap, not a split
@@ -257,7 +257,40 @@ pub fn auto_void_level(h: &Histogram, classes: usize) -> Option<u16> {
     };
     let at_level = smoothed(h.bin_of(levels[0]));
     let peak = (bins[1].0..bins[1].1).map(smoothed).max().unwrap_or(0);
-    (peak > 0 && (at_level as f64) < 0.1 * peak as f64).then_some(levels[0])
+    if peak > 0 && (at_level as f64) < 0.1 * peak as f64 {
+        return Some(levels[0]);
+    }
+    dark_tail_void_level(h, classes)
+}
+
+/// Second test for small voids (too few pixels to win a class of their own in multi-level
+/// Otsu): the darkest phase's peak and its half width at half maximum on the dark side give a
+/// Gaussian-equivalent sigma = HWHM / 1.1774; pixels more than 6 sigma below the peak are voids
+/// (a Gaussian tail beyond 6 sigma holds 1e-9 of the pixels) when there are at least 20 of them
+/// (common practice).
+fn dark_tail_void_level(h: &Histogram, classes: usize) -> Option<u16> {
+    let levels = multi_otsu_levels(h, classes).ok()?;
+    let (lo, hi) = h.class_bins(&levels)[0];
+    let half = (h.len() / 256).max(1);
+    let smoothed = |b: usize| {
+        let a = b.saturating_sub(half);
+        let z = (b + half + 1).min(h.len());
+        h.range_count_sum(a, z).0
+    };
+    let mode = (lo..hi).max_by_key(|&b| smoothed(b))?;
+    let peak = smoothed(mode);
+    let mut b = mode;
+    while b > 0 && smoothed(b) * 2 > peak {
+        b -= 1;
+    }
+    let sigma = (h.bin_value(mode) - h.bin_value(b)).max(h.bin_value(1) - h.bin_value(0)) / 1.1774;
+    let level = h.bin_value(mode) - 6.0 * sigma;
+    if level < 0.0 {
+        return None;
+    }
+    let level = level.floor() as u16;
+    let (n, _) = h.range_count_sum(0, h.bin_of(level) + 1);
+    (n >= 20).then_some(level)
 }
 
 fn mask_image(width: u32, height: u32, data: Vec<u8>) -> Result<GrayImage> {
