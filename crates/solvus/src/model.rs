@@ -103,6 +103,9 @@ impl Composition {
                 Self::SUM_TOLERANCE
             )));
         }
+        if (sum - 1.0).abs() < 1e-12 {
+            return Ok(Self { x_ab, x_or, x_an });
+        }
         Ok(Self {
             x_ab: x_ab / sum,
             x_or: x_or / sum,

@@ -200,14 +200,18 @@ pub(crate) fn tpd_min_2d(at: &ModelAt, y0: [f64; 2], warm: Option<[f64; 2]>) -> 
     let denom = (GRID_N + 1) as f64;
     for i in 0..=GRID_N {
         for k in 0..=(GRID_N - i) {
-            let y = [(i as f64 + 1.0 / 3.0) / denom, (k as f64 + 1.0 / 3.0) / denom];
+            let y = [
+                (i as f64 + 1.0 / 3.0) / denom,
+                (k as f64 + 1.0 / 3.0) / denom,
+            ];
             let d = tpd(y);
             if d < best_all.0 {
                 best_all = (d, y);
             }
-            let far = (y[0] - y0[0]).abs().max((y[1] - y0[1]).abs()).max(
-                ((1.0 - y[0] - y[1]) - (1.0 - y0[0] - y0[1])).abs(),
-            );
+            let far = (y[0] - y0[0])
+                .abs()
+                .max((y[1] - y0[1]).abs())
+                .max(((1.0 - y[0] - y[1]) - (1.0 - y0[0] - y0[1])).abs());
             if far > 0.05 && d < best_far.0 {
                 best_far = (d, y);
             }
@@ -228,7 +232,13 @@ pub(crate) fn tpd_min_2d(at: &ModelAt, y0: [f64; 2], warm: Option<[f64; 2]>) -> 
 }
 
 /// Damped Newton minimisation of the tangent-plane distance from `start`.
-fn local_min_2d(at: &ModelAt, y0: [f64; 2], g0: f64, r0: [f64; 2], start: [f64; 2]) -> (f64, [f64; 2]) {
+fn local_min_2d(
+    at: &ModelAt,
+    y0: [f64; 2],
+    g0: f64,
+    r0: [f64; 2],
+    start: [f64; 2],
+) -> (f64, [f64; 2]) {
     let tpd_of = |g: f64, y: [f64; 2]| g - g0 - r0[0] * (y[0] - y0[0]) - r0[1] * (y[1] - y0[1]);
     let mut y = start;
     let (mut g, mut grad, mut h) = at.reduced(y);
@@ -238,7 +248,9 @@ fn local_min_2d(at: &ModelAt, y0: [f64; 2], g0: f64, r0: [f64; 2], start: [f64; 
         // shift the Hessian to positive definite if needed (Levenberg)
         let tr = h[0][0] + h[1][1];
         let det = h[0][0] * h[1][1] - h[0][1] * h[1][0];
-        let disc = ((h[0][0] - h[1][1]).powi(2) + 4.0 * h[0][1] * h[1][0]).max(0.0).sqrt();
+        let disc = ((h[0][0] - h[1][1]).powi(2) + 4.0 * h[0][1] * h[1][0])
+            .max(0.0)
+            .sqrt();
         let lam_min = 0.5 * (tr - disc);
         let shift = if lam_min > 1e-9 * tr.abs() && det > 0.0 {
             0.0
@@ -321,12 +333,10 @@ pub fn min_crystallisation_temperature(
                 conjugate: Composition::from_array([1.0 - conj, conj, 0.0]),
             },
             Ok(Some(_)) => MinTemperature::UnstableAtRangeTop { t_max_k: t_hi },
-            Ok(None) | Err(SolvusError::NoMiscibilityGap { .. }) => {
-                MinTemperature::StableInRange {
-                    t_min_k: t_lo,
-                    t_max_k: t_hi,
-                }
-            }
+            Ok(None) | Err(SolvusError::NoMiscibilityGap { .. }) => MinTemperature::StableInRange {
+                t_min_k: t_lo,
+                t_max_k: t_hi,
+            },
             Err(e) => return Err(e),
         },
         Geometry::Edge(..) | Geometry::Interior(_) => {

@@ -24,7 +24,7 @@ use serde::Serialize;
 use crate::SolvusError;
 use crate::binary::{binodal_on_join, spinodal_scan};
 use crate::model::{Composition, EdgeJoin, ModelAt, ModelKind, SolutionModel};
-use crate::numeric::{solve2, solve_n};
+use crate::numeric::{solve_n, solve2};
 use crate::stability::{TPD_TOLERANCE, tpd_min_2d};
 
 /// One tie-line of a ternary isotherm.
@@ -86,7 +86,8 @@ fn system(at: &ModelAt, z: &[f64; 4]) -> ([f64; 3], [[f64; 4]; 3]) {
 }
 
 fn det3(m: [[f64; 3]; 3]) -> f64 {
-    m[0][0] * (m[1][1] * m[2][2] - m[1][2] * m[2][1]) - m[0][1] * (m[1][0] * m[2][2] - m[1][2] * m[2][0])
+    m[0][0] * (m[1][1] * m[2][2] - m[1][2] * m[2][1])
+        - m[0][1] * (m[1][0] * m[2][2] - m[1][2] * m[2][0])
         + m[0][2] * (m[1][0] * m[2][1] - m[1][1] * m[2][0])
 }
 
@@ -202,7 +203,11 @@ const EDGES: [(usize, usize, usize); 3] = [
 const EDGE_EPS: f64 = 2e-5;
 
 /// Tie-line ends on an edge, as full compositions.
-fn edge_tie_line(at: &ModelAt, from: usize, to: usize) -> Result<Option<([f64; 3], [f64; 3])>, SolvusError> {
+fn edge_tie_line(
+    at: &ModelAt,
+    from: usize,
+    to: usize,
+) -> Result<Option<([f64; 3], [f64; 3])>, SolvusError> {
     let join = EdgeJoin { at: *at, from, to };
     let Some(sp) = spinodal_scan(&join) else {
         return Ok(None);
@@ -240,7 +245,8 @@ fn trace(
         return (lines, None, None);
     };
     lines.push(z);
-    let missing_of = |z: &[f64; 4], m: usize| -> f64 { to_x([z[0], z[1]])[m].max(to_x([z[2], z[3]])[m]) };
+    let missing_of =
+        |z: &[f64; 4], m: usize| -> f64 { to_x([z[0], z[1]])[m].max(to_x([z[2], z[3]])[m]) };
     let mut h = 0.005;
     let mut prev_t: Option<[f64; 4]> = None;
     for _ in 0..4000 {
@@ -248,15 +254,24 @@ fn trace(
         let Some(mut t) = null_vector(&j) else { break };
         let dir_sign = match prev_t {
             Some(p) => (0..4).map(|k| t[k] * p[k]).sum::<f64>(),
-            None => (0..4).map(|k| t[k] * row[k]).sum::<f64>() * if missing == 0 { 1.0 } else { 1.0 },
+            None => {
+                (0..4).map(|k| t[k] * row[k]).sum::<f64>() * if missing == 0 { 1.0 } else { 1.0 }
+            }
         };
         if dir_sign < 0.0 {
             t = t.map(|v| -v);
         }
-        let k = (0..4).max_by(|&p, &q| t[p].abs().total_cmp(&t[q].abs())).unwrap_or(0);
+        let k = (0..4)
+            .max_by(|&p, &q| t[p].abs().total_cmp(&t[q].abs()))
+            .unwrap_or(0);
         let mut accepted = None;
         while h > 1e-9 {
-            let zp = [z[0] + h * t[0], z[1] + h * t[1], z[2] + h * t[2], z[3] + h * t[3]];
+            let zp = [
+                z[0] + h * t[0],
+                z[1] + h * t[1],
+                z[2] + h * t[2],
+                z[3] + h * t[3],
+            ];
             let mut row_k = [0.0; 4];
             row_k[k] = 1.0;
             if inside(&zp) {
@@ -276,9 +291,8 @@ fn trace(
             let len = ((z[0] - z[2]).powi(2) + (z[1] - z[3]).powi(2)).sqrt();
             if len < 0.1 {
                 let mid = [0.5 * (z[0] + z[2]), 0.5 * (z[1] + z[3])];
-                let cp = critical_point_2d(at, mid).filter(|c| {
-                    ((c[0] - mid[0]).powi(2) + (c[1] - mid[1]).powi(2)).sqrt() < 0.1
-                });
+                let cp = critical_point_2d(at, mid)
+                    .filter(|c| ((c[0] - mid[0]).powi(2) + (c[1] - mid[1]).powi(2)).sqrt() < 0.1);
                 return (lines, cp, None);
             }
             break;
@@ -292,9 +306,8 @@ fn trace(
         let len = ((z[0] - z[2]).powi(2) + (z[1] - z[3]).powi(2)).sqrt();
         if len < 0.03 {
             let mid = [0.5 * (z[0] + z[2]), 0.5 * (z[1] + z[3])];
-            let cp = critical_point_2d(at, mid).filter(|c| {
-                ((c[0] - mid[0]).powi(2) + (c[1] - mid[1]).powi(2)).sqrt() < 0.05
-            });
+            let cp = critical_point_2d(at, mid)
+                .filter(|c| ((c[0] - mid[0]).powi(2) + (c[1] - mid[1]).powi(2)).sqrt() < 0.05);
             return (lines, Some(cp.unwrap_or(mid)), None);
         }
         for (e, &(_, _, m)) in EDGES.iter().enumerate() {
@@ -435,7 +448,12 @@ fn three_phase_triangle(at: &ModelAt, start: [[f64; 2]; 3]) -> Option<[[f64; 2];
         let step = solve_n(j, f.map(|v| -v))?;
         let mut alpha: f64 = 1.0;
         let apply = |alpha: f64| -> [[f64; 2]; 3] {
-            std::array::from_fn(|i| [y[i][0] + alpha * step[2 * i], y[i][1] + alpha * step[2 * i + 1]])
+            std::array::from_fn(|i| {
+                [
+                    y[i][0] + alpha * step[2 * i],
+                    y[i][1] + alpha * step[2 * i + 1],
+                ]
+            })
         };
         let mut next = apply(alpha);
         while !next.iter().all(|&p| to_x(p).iter().all(|&v| v > 0.0)) {
@@ -449,8 +467,10 @@ fn three_phase_triangle(at: &ModelAt, start: [[f64; 2]; 3]) -> Option<[[f64; 2];
         let size = step.iter().map(|v| v.abs()).fold(0.0, f64::max) * alpha;
         if size < 1e-12 {
             // the three phases must be distinct
-            let dist = |a: [f64; 2], b: [f64; 2]| ((a[0] - b[0]).powi(2) + (a[1] - b[1]).powi(2)).sqrt();
-            let distinct = dist(y[0], y[1]) > 1e-3 && dist(y[1], y[2]) > 1e-3 && dist(y[0], y[2]) > 1e-3;
+            let dist =
+                |a: [f64; 2], b: [f64; 2]| ((a[0] - b[0]).powi(2) + (a[1] - b[1]).powi(2)).sqrt();
+            let distinct =
+                dist(y[0], y[1]) > 1e-3 && dist(y[1], y[2]) > 1e-3 && dist(y[0], y[2]) > 1e-3;
             return distinct.then_some(y);
         }
     }
@@ -471,7 +491,11 @@ mod tests {
             for t_c in [600.0, 750.0, 900.0] {
                 let t = kelvin_from_celsius(t_c);
                 let iso = ternary_isotherm(&m, t, 1000.0).unwrap();
-                assert!(iso.tie_lines.len() > 5, "{id} {t_c}: {}", iso.tie_lines.len());
+                assert!(
+                    iso.tie_lines.len() > 5,
+                    "{id} {t_c}: {}",
+                    iso.tie_lines.len()
+                );
                 let at = m.at(t, 1000.0).unwrap();
                 for tl in &iso.tie_lines {
                     let a = tl.na_rich.as_array();
@@ -520,13 +544,19 @@ mod tests {
             let at = m.at(t, 1000.0).unwrap();
             let (_, _, h) = at.reduced([c.x_or, c.x_an]);
             let det = h[0][0] * h[1][1] - h[0][1] * h[1][0];
-            assert!(det.abs() < 1e-6 * (h[0][0] * h[1][1]).abs(), "{id}: det {det}");
+            assert!(
+                det.abs() < 1e-6 * (h[0][0] * h[1][1]).abs(),
+                "{id}: det {det}"
+            );
             let last = iso.tie_lines.last().unwrap();
             let mid = [
                 0.5 * (last.na_rich.x_or + last.k_rich.x_or),
                 0.5 * (last.na_rich.x_an + last.k_rich.x_an),
             ];
-            assert!((mid[0] - c.x_or).abs() < 0.03 && (mid[1] - c.x_an).abs() < 0.03, "{id}");
+            assert!(
+                (mid[0] - c.x_or).abs() < 0.03 && (mid[1] - c.x_an).abs() < 0.03,
+                "{id}"
+            );
         }
     }
 
@@ -550,7 +580,10 @@ mod tests {
                     else {
                         panic!("{id}: {:?}", r.outcome)
                     };
-                    assert!((temperature_k - t).abs() < 0.05, "{id} {end:?}: {temperature_k}");
+                    assert!(
+                        (temperature_k - t).abs() < 0.05,
+                        "{id} {end:?}: {temperature_k}"
+                    );
                 }
             }
         }

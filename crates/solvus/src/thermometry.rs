@@ -178,7 +178,10 @@ impl<'a> Thermometer<'a> {
                             crate::units::celsius_from_kelvin(hi)
                         )
                     } else {
-                        format!("{} activities never become equal above absolute zero", names[i])
+                        format!(
+                            "{} activities never become equal above absolute zero",
+                            names[i]
+                        )
                     },
                 }
             } else {
@@ -189,7 +192,10 @@ impl<'a> Thermometer<'a> {
 }
 
 fn spread(ts: &[ComponentTemperature; 3]) -> Option<f64> {
-    let v: Vec<f64> = ts.iter().filter_map(ComponentTemperature::temperature_k).collect();
+    let v: Vec<f64> = ts
+        .iter()
+        .filter_map(ComponentTemperature::temperature_k)
+        .collect();
     if v.len() < 2 {
         return None;
     }
@@ -291,7 +297,11 @@ pub fn adjust_pair(
         for (x, x0) in [(y1, x1), (y2, x2)] {
             for c in 0..3 {
                 let change = ((x[c] - x0[c]).abs() / sigma - 1.0).max(0.0);
-                let floor = if x0[c] > 0.0 { ((1e-6 - x[c]) / sigma).max(0.0) } else { 0.0 };
+                let floor = if x0[c] > 0.0 {
+                    ((1e-6 - x[c]) / sigma).max(0.0)
+                } else {
+                    0.0
+                };
                 r.push(STIFF * (change + floor));
             }
         }
@@ -302,7 +312,11 @@ pub fn adjust_pair(
     let mut r = residuals(&u);
     let mut c = cost(&r);
     let mut lambda = 1e-3;
-    let n_free = if binary { [true, false, true, false] } else { [true; 4] };
+    let n_free = if binary {
+        [true, false, true, false]
+    } else {
+        [true; 4]
+    };
     for _ in 0..200 {
         // finite-difference Jacobian
         let h = 1e-6;
@@ -341,7 +355,12 @@ pub fn adjust_pair(
                 lambda *= 10.0;
                 continue;
             };
-            let un = [u[0] + step[0], u[1] + step[1], u[2] + step[2], u[3] + step[3]];
+            let un = [
+                u[0] + step[0],
+                u[1] + step[1],
+                u[2] + step[2],
+                u[3] + step[3],
+            ];
             let rn = residuals(&un);
             let cn = cost(&rn);
             if cn < c {

@@ -27,7 +27,7 @@ use serde::Deserialize;
 
 use crate::SolvusError;
 use crate::model::{
-    BUILTIN_IDS, CoherentStrain, IdealMixing, ModelKind, ModelRange, MargulesSet, SolutionModel,
+    BUILTIN_IDS, CoherentStrain, IdealMixing, MargulesSet, ModelKind, ModelRange, SolutionModel,
 };
 
 #[derive(Debug, Deserialize)]
@@ -95,7 +95,10 @@ impl SolutionModel {
         })?;
         let id = file.id.trim();
         if id.is_empty() || id.chars().any(char::is_whitespace) {
-            return Err(fail("id", "`id` must be a non-empty word without spaces".into()));
+            return Err(fail(
+                "id",
+                "`id` must be a non-empty word without spaces".into(),
+            ));
         }
         if BUILTIN_IDS.contains(&id) {
             return Err(fail(
@@ -104,9 +107,14 @@ impl SolutionModel {
             ));
         }
         if file.citation.trim().is_empty() {
-            return Err(fail("citation", "`citation` must say where the parameters come from".into()));
+            return Err(fail(
+                "citation",
+                "`citation` must say where the parameters come from".into(),
+            ));
         }
-        let names = ["ab_or", "or_ab", "ab_an", "an_ab", "or_an", "an_or", "or_ab_an"];
+        let names = [
+            "ab_or", "or_ab", "ab_an", "an_ab", "or_an", "an_or", "or_ab_an",
+        ];
         for (name, m) in names.iter().zip(file.margules.as_array()) {
             let checks = [
                 ("wh", m.wh, 1e6, "J/mol"),
@@ -152,7 +160,10 @@ impl SolutionModel {
                     ));
                 }
                 if !(0.0..=1.0).contains(&r.max_x_an) {
-                    return Err(fail("max_x_an", "range.max_x_an must lie between 0 and 1".into()));
+                    return Err(fail(
+                        "max_x_an",
+                        "range.max_x_an must lie between 0 and 1".into(),
+                    ));
                 }
                 r
             }
@@ -168,7 +179,10 @@ impl SolutionModel {
                 ("molar_volume_j_per_bar", c.molar_volume_j_per_bar),
             ] {
                 if !(v.is_finite() && v > 0.0) {
-                    return Err(fail(field, format!("coherent.{field} must be a positive number")));
+                    return Err(fail(
+                        field,
+                        format!("coherent.{field} must be a positive number"),
+                    ));
                 }
             }
         }
@@ -212,9 +226,14 @@ mod tests {
 
     #[test]
     fn errors_name_line_and_column() {
-        let bad = GOOD.replace("\"ws\": 10.3, \"wv\": 0.394}\n  }", "\"ws\": 10.3, \"wv\": 0.394,}\n  }");
+        let bad = GOOD.replace(
+            "\"ws\": 10.3, \"wv\": 0.394}\n  }",
+            "\"ws\": 10.3, \"wv\": 0.394,}\n  }",
+        );
         let e = SolutionModel::from_json_str(&bad, Path::new("bad.json")).unwrap_err();
-        let SolvusError::ModelFile { line, column, .. } = &e else { panic!("{e}") };
+        let SolvusError::ModelFile { line, column, .. } = &e else {
+            panic!("{e}")
+        };
         assert_eq!(*line, 7, "{e}");
         assert!(*column > 0);
         assert!(e.to_string().starts_with("bad.json:7:"), "{e}");

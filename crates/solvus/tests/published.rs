@@ -4,7 +4,9 @@
 use solvus::binary::{BinodalOutcome, binodal, critical_point};
 use solvus::model::{Composition, SolutionModel};
 use solvus::stability::{MinTemperature, min_crystallisation_temperature, tangent_plane_stability};
-use solvus::thermometry::{AdjustmentOutcome, ComponentTemperature, adjust_pair, pair_temperatures};
+use solvus::thermometry::{
+    AdjustmentOutcome, ComponentTemperature, adjust_pair, pair_temperatures,
+};
 use solvus::units::{celsius_from_kelvin, kelvin_from_celsius};
 
 fn model(id: &str) -> SolutionModel {
@@ -52,7 +54,10 @@ fn adjustment_brings_g4_together_within_uncertainty() {
         assert!(a.concordant_within_uncertainty, "{id}: {a:?}");
         assert!(a.spread_k < 1.0);
         assert!(a.max_change <= 0.02 + 1e-9);
-        assert!((celsius_from_kelvin(a.temperature_k) - 800.0).abs() < 15.0, "{id}");
+        assert!(
+            (celsius_from_kelvin(a.temperature_k) - 800.0).abs() < 15.0,
+            "{id}"
+        );
     }
 }
 
@@ -90,7 +95,10 @@ fn min_temperature_on_a_binodal_returns_its_temperature() {
                 let MinTemperature::Found { temperature_k, .. } = r.outcome else {
                     panic!("{id}: {:?}", r.outcome);
                 };
-                assert!((temperature_k - t).abs() < 0.05, "{id} {t_c} C: {temperature_k}");
+                assert!(
+                    (temperature_k - t).abs() < 0.05,
+                    "{id} {t_c} C: {temperature_k}"
+                );
             }
         }
     }
@@ -102,16 +110,23 @@ fn min_temperature_typed_outcomes() {
     // expectation: the Haselton K-rich limb at 200 C lies below X_Or 0.99 (computed by the
     // binodal solver, itself checked against design §3.3 values).
     let m = model("haselton1983");
-    let r = min_crystallisation_temperature(&m, &Composition::ab_or(0.999).unwrap(), 1000.0)
-        .unwrap();
-    assert!(matches!(r.outcome, MinTemperature::StableInRange { .. }), "{r:?}");
+    let r =
+        min_crystallisation_temperature(&m, &Composition::ab_or(0.999).unwrap(), 1000.0).unwrap();
+    assert!(
+        matches!(r.outcome, MinTemperature::StableInRange { .. }),
+        "{r:?}"
+    );
     // Too much An for a binary model: outside its composition range, not an error or NaN.
     let r = min_crystallisation_temperature(&m, &Composition::new(0.4, 0.3, 0.3).unwrap(), 1000.0)
         .unwrap();
-    assert!(matches!(r.outcome, MinTemperature::OutsideCompositionRange { .. }));
+    assert!(matches!(
+        r.outcome,
+        MinTemperature::OutsideCompositionRange { .. }
+    ));
     // A little An is projected and said so (design §4).
-    let r = min_crystallisation_temperature(&m, &Composition::new(0.5, 0.48, 0.02).unwrap(), 1000.0)
-        .unwrap();
+    let r =
+        min_crystallisation_temperature(&m, &Composition::new(0.5, 0.48, 0.02).unwrap(), 1000.0)
+            .unwrap();
     assert!(r.projected);
     // Source: regular-solution theory (textbook) with the Elkins & Grove (1990) Ab-An terms
     // (W_AbAn 7924, W_AnAb 0 J/mol; design §3.3): this join is weaker than a symmetric regular
@@ -123,7 +138,10 @@ fn min_temperature_typed_outcomes() {
         1000.0,
     )
     .unwrap();
-    assert!(matches!(r.outcome, MinTemperature::StableInRange { .. }), "{r:?}");
+    assert!(
+        matches!(r.outcome, MinTemperature::StableInRange { .. }),
+        "{r:?}"
+    );
 }
 
 #[test]
@@ -132,7 +150,12 @@ fn ternary_min_temperature_brackets_the_stability_change() {
     // temperature (design §3.4): stable 0.05 C above the result, unstable 0.05 C below.
     for id in ["eg1990", "fl1988"] {
         let m = model(id);
-        for x in [[0.6, 0.3, 0.1], [0.45, 0.5, 0.05], [0.2, 0.7, 0.1], [0.7, 0.1, 0.2]] {
+        for x in [
+            [0.6, 0.3, 0.1],
+            [0.45, 0.5, 0.05],
+            [0.2, 0.7, 0.1],
+            [0.7, 0.1, 0.2],
+        ] {
             let bulk = Composition::new(x[0], x[1], x[2]).unwrap();
             let r = min_crystallisation_temperature(&m, &bulk, 1000.0).unwrap();
             let MinTemperature::Found { temperature_k, .. } = r.outcome else {
@@ -151,13 +174,23 @@ fn ternary_min_temperature_tends_to_the_binary_one() {
     // Source: continuity: a ternary model with X_An -> 0 is its Ab-Or binary (design §3.3).
     // Tolerance: 1 C for X_An = 1e-5 (the slope dT/dX_An is a few thousand C per unit).
     let m = model("eg1990");
-    let bin = min_crystallisation_temperature(&m, &Composition::new(0.7, 0.3, 0.0).unwrap(), 1000.0)
-        .unwrap();
-    let ter =
-        min_crystallisation_temperature(&m, &Composition::new(0.7, 0.29999, 0.00001).unwrap(), 1000.0)
+    let bin =
+        min_crystallisation_temperature(&m, &Composition::new(0.7, 0.3, 0.0).unwrap(), 1000.0)
             .unwrap();
-    let (MinTemperature::Found { temperature_k: a, .. }, MinTemperature::Found { temperature_k: b, .. }) =
-        (bin.outcome, ter.outcome)
+    let ter = min_crystallisation_temperature(
+        &m,
+        &Composition::new(0.7, 0.29999, 0.00001).unwrap(),
+        1000.0,
+    )
+    .unwrap();
+    let (
+        MinTemperature::Found {
+            temperature_k: a, ..
+        },
+        MinTemperature::Found {
+            temperature_k: b, ..
+        },
+    ) = (bin.outcome, ter.outcome)
     else {
         panic!()
     };
