@@ -24,6 +24,14 @@ enum Command {
     Formula(cli::formula::FormulaArgs),
     /// Modal fractions of the mineral phases of a micrograph (voids excluded, with intervals).
     Segment(cli::segment::SegmentArgs),
+    /// Ab-Or solvus of a solution model: consolute point, binodal, spinodal; ternary isotherm.
+    Solvus(cli::solvus::SolvusArgs),
+    /// Minimum crystallisation temperature of a bulk feldspar composition.
+    MinTemp(cli::solvus::MinTempArgs),
+    /// Two-feldspar temperatures (T_Ab, T_Or, T_An) of a coexisting pair.
+    PairTemp(cli::solvus::PairTempArgs),
+    /// The solution models: ids, citations, ideal-mixing choice.
+    Models(cli::solvus::ModelsArgs),
 }
 
 fn main() -> ExitCode {
@@ -31,6 +39,10 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Some(Command::Formula(args)) => cli::formula::run(&args),
         Some(Command::Segment(args)) => cli::segment::run(&args),
+        Some(Command::Solvus(args)) => cli::solvus::run_solvus(&args),
+        Some(Command::MinTemp(args)) => cli::solvus::run_min_temp(&args),
+        Some(Command::PairTemp(args)) => cli::solvus::run_pair_temp(&args),
+        Some(Command::Models(args)) => cli::solvus::run_models(&args),
         None => Err(anyhow::anyhow!(
             "the workbench is not built yet; run `consolute --help` for the subcommands"
         )),

@@ -3,3 +3,4 @@
 
 pub mod formula;
 pub mod segment;
+pub mod solvus;
