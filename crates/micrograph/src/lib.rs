@@ -1,6 +1,7 @@
 //! Placeholder docs (rewritten below).
 pub mod bootstrap;
 pub mod calibration;
+pub mod colour;
 pub mod control;
 pub mod correct;
 pub mod error;

@@ -90,3 +90,59 @@ fn sixteen_bit_recovers_fraction_within_half_a_percent() {
         );
     }
 }
+
+#[test]
+fn stained_colour_variant_recovers_fraction_within_half_a_percent() {
+    use micrograph::colour::{centroid, kmeans_seeded, segment_colour};
+    // Stained host (yellowish), unstained lamellae (pale grey), dark epoxy in the voids; no
+    // illumination gradient (colour flattening is not implemented).
+    let spec = SyntheticSpec {
+        gradient: 0.0,
+        seed: 9,
+        ..SyntheticSpec::default()
+    };
+    let colours = [[205, 175, 70], [222, 220, 214], [35, 30, 40]];
+    let (image, syn) = Synthetic::stained(&spec, colours, 0.02).unwrap();
+    let rgb = image.rgb8();
+    // "User-picked" samples: pixels whose construction coverage is pure.
+    let pick = |pred: &dyn Fn(usize) -> bool| -> Vec<[u8; 3]> {
+        (0..rgb.len())
+            .filter(|&i| pred(i))
+            .step_by(7)
+            .take(200)
+            .map(|i| rgb[i])
+            .collect()
+    };
+    let host = centroid(&pick(&|i| {
+        syn.lamella_coverage[i] == 0.0 && syn.void_coverage[i] == 0.0
+    }))
+    .unwrap();
+    let lam = centroid(&pick(&|i| syn.lamella_coverage[i] == 1.0)).unwrap();
+    let void = centroid(&pick(&|i| syn.void_coverage[i] == 1.0)).unwrap();
+    let region = Mask::full(spec.width, spec.height);
+    let refined = kmeans_seeded(&rgb, &region, &[host, lam, void], 20, &Control::none()).unwrap();
+    for (label, cents) in [
+        ("nearest centroid", vec![host, lam, void]),
+        ("k-means", refined),
+    ] {
+        let seg = segment_colour(
+            &image,
+            &region,
+            &cents[..2],
+            &cents[2..],
+            &SegmentSettings::default(),
+            &Control::none(),
+        )
+        .unwrap();
+        let truth = truth_over_measured(&syn, &seg.class_map);
+        let got = seg.phases[1].area_fraction;
+        eprintln!(
+            "stained {label}: got {got:.5} truth {truth:.5} excluded {:.4}",
+            seg.excluded_fraction
+        );
+        assert!(
+            (got - truth).abs() < 0.005,
+            "{label}: {got} vs truth {truth}"
+        );
+    }
+}
