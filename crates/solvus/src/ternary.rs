@@ -202,12 +202,11 @@ const EDGES: [(usize, usize, usize); 3] = [
 /// Below this mole fraction at both ends a trace is taken to have reached an edge.
 const EDGE_EPS: f64 = 2e-5;
 
+/// Two compositions as `[x_ab, x_or, x_an]` arrays.
+type EdgePair = ([f64; 3], [f64; 3]);
+
 /// Tie-line ends on an edge, as full compositions.
-fn edge_tie_line(
-    at: &ModelAt,
-    from: usize,
-    to: usize,
-) -> Result<Option<([f64; 3], [f64; 3])>, SolvusError> {
+fn edge_tie_line(at: &ModelAt, from: usize, to: usize) -> Result<Option<EdgePair>, SolvusError> {
     let join = EdgeJoin { at: *at, from, to };
     let Some(sp) = spinodal_scan(&join) else {
         return Ok(None);
@@ -254,9 +253,7 @@ fn trace(
         let Some(mut t) = null_vector(&j) else { break };
         let dir_sign = match prev_t {
             Some(p) => (0..4).map(|k| t[k] * p[k]).sum::<f64>(),
-            None => {
-                (0..4).map(|k| t[k] * row[k]).sum::<f64>() * if missing == 0 { 1.0 } else { 1.0 }
-            }
+            None => (0..4).map(|k| t[k] * row[k]).sum::<f64>(),
         };
         if dir_sign < 0.0 {
             t = t.map(|v| -v);
@@ -274,13 +271,13 @@ fn trace(
             ];
             let mut row_k = [0.0; 4];
             row_k[k] = 1.0;
-            if inside(&zp) {
-                if let Some((zn, iters)) = correct(at, zp, row_k, zp[k]) {
-                    let moved = (0..4).map(|q| (zn[q] - z[q]).powi(2)).sum::<f64>().sqrt();
-                    if moved < 3.0 * h {
-                        accepted = Some((zn, iters));
-                        break;
-                    }
+            if inside(&zp)
+                && let Some((zn, iters)) = correct(at, zp, row_k, zp[k])
+            {
+                let moved = (0..4).map(|q| (zn[q] - z[q]).powi(2)).sum::<f64>().sqrt();
+                if moved < 3.0 * h {
+                    accepted = Some((zn, iters));
+                    break;
                 }
             }
             h *= 0.5;
@@ -370,7 +367,7 @@ pub fn ternary_isotherm(
                 candidates.push((tests[i].0, [[z[0], z[1]], [z[2], z[3]], tests[i].1]));
             }
         }
-        let mut band: Vec<([f64; 3], [f64; 3])> = Vec::new();
+        let mut band: Vec<EdgePair> = Vec::new();
         if stable.first().copied().unwrap_or(true) {
             band.push(edge);
         }
@@ -382,16 +379,16 @@ pub fn ternary_isotherm(
         if let Some(r) = reached {
             done[r] = true;
             let (f2, t2, _) = EDGES[r];
-            if stable.last().copied().unwrap_or(true) {
-                if let Some(end) = edge_tie_line(&at, f2, t2)? {
-                    band.push(end);
-                }
+            if stable.last().copied().unwrap_or(true)
+                && let Some(end) = edge_tie_line(&at, f2, t2)?
+            {
+                band.push(end);
             }
         }
-        if let Some(c) = cp {
-            if stable.last().copied().unwrap_or(false) {
-                critical_point = Some(Composition::from_array(to_x(c)));
-            }
+        if let Some(c) = cp
+            && stable.last().copied().unwrap_or(false)
+        {
+            critical_point = Some(Composition::from_array(to_x(c)));
         }
         for (a, b) in band {
             let (na, k) = if a[1] <= b[1] { (a, b) } else { (b, a) };

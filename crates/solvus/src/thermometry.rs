@@ -101,7 +101,7 @@ pub struct PairAdjustment {
 #[non_exhaustive]
 pub enum AdjustmentOutcome {
     /// Adjusted (see `concordant_within_uncertainty` for whether it fully succeeded).
-    Adjusted(PairAdjustment),
+    Adjusted(Box<PairAdjustment>),
     /// Fewer than two component temperatures exist, so there is nothing to bring together.
     TooFewTemperatures {
         /// How many exist.
@@ -394,7 +394,7 @@ pub fn adjust_pair(
     let max_change = (0..3)
         .map(|c| (y1[c] - x1[c]).abs().max((y2[c] - x2[c]).abs()))
         .fold(0.0, f64::max);
-    Ok(AdjustmentOutcome::Adjusted(PairAdjustment {
+    Ok(AdjustmentOutcome::Adjusted(Box::new(PairAdjustment {
         phase1: c1,
         phase2: c2,
         temperature_k: mean,
@@ -403,5 +403,5 @@ pub fn adjust_pair(
         max_change,
         concordant_within_uncertainty: spread_k <= 1.0 && max_change <= sigma * (1.0 + 1e-6),
         temperatures: temps,
-    }))
+    })))
 }
