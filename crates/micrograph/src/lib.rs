@@ -7,6 +7,8 @@ pub mod correct;
 pub mod error;
 pub mod histogram;
 pub mod load;
+pub mod morphometry;
+pub mod order;
 pub mod roi;
 pub mod segment;
 pub mod synthetic;
