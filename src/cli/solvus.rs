@@ -37,7 +37,7 @@ pub struct ModelChoice {
     /// Coherent strain: lattice misfit eta = (1/a) da/dX (default 0.054).
     #[arg(long, requires = "coherent")]
     pub coherent_eta: Option<f64>,
-    /// Coherent strain: effective elastic modulus, GPa (default 5.5).
+    /// Coherent strain: effective elastic modulus, GPa (default 9.5).
     #[arg(long, requires = "coherent")]
     pub coherent_modulus_gpa: Option<f64>,
 }

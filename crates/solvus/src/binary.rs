@@ -516,6 +516,40 @@ mod tests {
     }
 
     #[test]
+    fn coherent_strain_lowers_the_symmetric_critical_temperature() {
+        // Source: regular-solution theory (textbook) with the Cahn (1962) strain term
+        // K (X - X0)^2 (from memory): it equals lowering both W by K, so T_c = (W - K) / 2R.
+        // Tolerance: 1e-6 relative.
+        let strain = crate::model::CoherentStrain {
+            eta: 0.05,
+            modulus_gpa: 10.0,
+            molar_volume_j_per_bar: 10.0,
+        };
+        let k = strain.energy_j();
+        assert!((k - 2500.0).abs() < 1e-9); // 0.05^2 * 1e10 Pa * 1e-4 m3
+        let model = symmetric(20_000.0).with_coherent_strain(strain);
+        let c = critical_point(&model, 0.0).unwrap();
+        let expect = (20_000.0 - k) / (2.0 * GAS_CONSTANT);
+        assert!(((c.temperature_k - expect) / expect).abs() < 1e-6);
+    }
+
+    #[test]
+    fn default_coherent_solvus_lies_about_100_c_below() {
+        // Source: design §3.3, coherent solvus about 100 C below the strain-free one
+        // (Petrishcheva et al. 2023, as quoted). The default modulus was chosen for this, so
+        // this guards the documented default; tolerance 25 C. Off unless asked for.
+        let free = SolutionModel::builtin("haselton1983").unwrap();
+        assert!(free.coherent.is_none());
+        let coherent = free
+            .clone()
+            .with_coherent_strain(crate::model::CoherentStrain::default());
+        let a = critical_point(&free, 1000.0).unwrap();
+        let b = critical_point(&coherent, 1000.0).unwrap();
+        let drop = a.temperature_k - b.temperature_k;
+        assert!((drop - 100.0).abs() < 25.0, "drop {drop}");
+    }
+
+    #[test]
     fn symmetric_binodal_satisfies_closed_form() {
         // Source: regular solution theory: the symmetric binodal satisfies
         // ln(x/(1-x)) = (W/RT)(2x - 1). Tolerance: 1e-9 in the residual.

@@ -322,13 +322,13 @@ pub struct CoherentStrain {
 impl Default for CoherentStrain {
     /// `eta = 0.054` from the a-axis lengths of albite (8.14 A) and sanidine (8.59 A), both from
     /// memory; molar volume 10.5 J/bar, between high albite 10.105 and sanidine 10.871 (Holland
-    /// & Powell 2011, design §3.1); modulus 5.5 GPa is an effective value chosen so that the
+    /// & Powell 2011, design §3.1); modulus 9.5 GPa is an effective value chosen so that the
     /// strain energy lowers the critical temperature by roughly the 100 C quoted for the coherent
     /// solvus (design §3.3), not a measured modulus.
     fn default() -> Self {
         Self {
             eta: 0.054,
-            modulus_gpa: 5.5,
+            modulus_gpa: 9.5,
             molar_volume_j_per_bar: 10.5,
         }
     }
