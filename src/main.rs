@@ -32,6 +32,8 @@ enum Command {
     PairTemp(cli::solvus::PairTempArgs),
     /// The solution models: ids, citations, ideal-mixing choice.
     Models(cli::solvus::ModelsArgs),
+    /// Recompute a whole project and write results, tables and a summary.
+    Run(cli::run::RunArgs),
 }
 
 fn main() -> ExitCode {
@@ -43,6 +45,7 @@ fn main() -> ExitCode {
         Some(Command::MinTemp(args)) => cli::solvus::run_min_temp(&args),
         Some(Command::PairTemp(args)) => cli::solvus::run_pair_temp(&args),
         Some(Command::Models(args)) => cli::solvus::run_models(&args),
+        Some(Command::Run(args)) => cli::run::run(&args),
         None => Err(anyhow::anyhow!(
             "the workbench is not built yet; run `consolute --help` for the subcommands"
         )),

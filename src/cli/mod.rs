@@ -2,5 +2,6 @@
 //! with `--json` it prints one JSON object on stdout, otherwise a readable table.
 
 pub mod formula;
+pub mod run;
 pub mod segment;
 pub mod solvus;

@@ -1,0 +1,27 @@
+//! The Consolute project: the document that holds a whole study, its reading and atomic saving,
+//! and the run that recomputes every result from it.
+//!
+//! ```
+//! use project::{Project, parse_project, project_json};
+//! let p = Project::new("example");
+//! let text = project_json(&p);
+//! let back = parse_project(&text, std::path::Path::new("example.json")).unwrap();
+//! assert_eq!(back, p);
+//! ```
+
+mod document;
+mod io;
+pub mod output;
+mod run;
+
+pub use document::{
+    AnalysisFile, FORMAT_VERSION, Grain, MicrographSpec, PhaseSpec, Project, Sample, Settings,
+};
+pub use io::{
+    ProjectError, autosave_path, autosave_project, load_project, parse_project, pending_autosave,
+    project_json, save_project, write_atomically,
+};
+pub use run::{
+    GrainFailure, GrainResult, MicrographResult, PairResult, PhaseResult, Quiet, RunProgress,
+    RunResult, run_project,
+};
