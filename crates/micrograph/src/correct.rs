@@ -57,10 +57,11 @@ fn solve(mut a: Vec<Vec<f64>>, mut b: Vec<f64>) -> Option<Vec<f64>> {
         }
         a.swap(col, piv);
         b.swap(col, piv);
+        let pivot_row = a[col].clone();
         for r in col + 1..n {
-            let f = a[r][col] / a[col][col];
-            for c in col..n {
-                a[r][c] -= f * a[col][c];
+            let f = a[r][col] / pivot_row[col];
+            for (x, p) in a[r][col..].iter_mut().zip(&pivot_row[col..]) {
+                *x -= f * p;
             }
             b[r] -= f * b[col];
         }

@@ -66,8 +66,10 @@ impl Histogram {
                 expected: "0..=15".to_string(),
             });
         }
-        if let Some(m) = mask {
-            if m.len() != plane.data.len() {
+        if let Some(m) = mask
+            && m.len() != plane.data.len()
+        {
+            {
                 return Err(MicrographError::Mismatch(format!(
                     "mask has {} pixels, image {}",
                     m.len(),

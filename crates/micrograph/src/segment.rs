@@ -31,7 +31,7 @@ pub enum LevelChoice {
     Otsu,
     /// Otsu, then each level moved to the midpoint between the modes of its two classes
     /// (unbiased by symmetric edge blur; see
-    /// [`refine_levels_to_mode_midpoints`](crate::threshold::refine_levels_to_mode_midpoints)).
+    /// [`refine_levels_to_mode_midpoints`]).
     OtsuMidpoint,
 }
 
@@ -661,10 +661,11 @@ pub fn remove_small_features(
         .zip(labels.par_iter())
         .for_each(|(c, &l)| {
             let si = small_index[l as usize];
-            if l != 0 && si != u32::MAX {
-                if let Some(nc) = new_class[si as usize] {
-                    *c = nc;
-                }
+            if l != 0
+                && si != u32::MAX
+                && let Some(nc) = new_class[si as usize]
+            {
+                *c = nc;
             }
         });
     Ok(())

@@ -239,15 +239,14 @@ impl Synthetic {
         let (w, h) = (spec.width as usize, spec.height as usize);
         let mut rng = SplitMix64::new(spec.seed ^ 0xC0FFEE);
         let mut chans = Vec::new();
-        for ch in 0..3 {
+        let [host_c, lam_c, void_c] = colours;
+        for ((host, lam), void) in host_c.into_iter().zip(lam_c).zip(void_c) {
             let ideal: Vec<f32> = grey
                 .lamella_coverage
                 .iter()
                 .zip(&grey.void_coverage)
                 .map(|(&l, &v)| {
-                    (f32::from(colours[0][ch]) * (1.0 - l - v)
-                        + f32::from(colours[1][ch]) * l
-                        + f32::from(colours[2][ch]) * v)
+                    (f32::from(host) * (1.0 - l - v) + f32::from(lam) * l + f32::from(void) * v)
                         / 255.0
                 })
                 .collect();

@@ -130,11 +130,11 @@ fn solve_layer(
     let mid = (js.0 + js.1) / 2;
     let hi = opt.1.min(mid - 1);
     let mut best = (f64::NEG_INFINITY, opt.0);
-    for i in opt.0..=hi.max(opt.0) {
+    for (i, &p) in prev.iter().enumerate().take(hi.max(opt.0) + 1).skip(opt.0) {
         if i >= mid {
             break;
         }
-        let v = prev[i] + term(i, mid);
+        let v = p + term(i, mid);
         if v > best.0 {
             best = (v, i);
         }
