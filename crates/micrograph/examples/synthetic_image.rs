@@ -21,6 +21,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         lamella_width_px: 8.0,
         cracks: vec![(10.0 * f, 200.0 * f, 240.0 * f, 170.0 * f, 2.0)],
         pores: vec![(70.0 * f, 60.0 * f, 9.0 * f.sqrt())],
+        supersample: if size > 2048 { 2 } else { 8 },
         ..SyntheticSpec::default()
     };
     let syn = spec.generate();

@@ -116,6 +116,44 @@ impl Histogram {
         Self::from_counts(counts, bin_shift, plane.max_value)
     }
 
+    /// Histogram of the pixels whose class-map entry is not `NOT_MEASURED` (no extra mask).
+    pub fn of_class_map(plane: &GrayPlane, class_map: &[u8], bin_shift: u32) -> Result<Self> {
+        if class_map.len() != plane.data.len() || bin_shift > 15 {
+            return Err(MicrographError::Mismatch(format!(
+                "class map has {} pixels, image {} (bin shift {bin_shift})",
+                class_map.len(),
+                plane.data.len()
+            )));
+        }
+        let nbins = (usize::from(plane.max_value) >> bin_shift) + 1;
+        let chunk = 1 << 16;
+        let counts = plane
+            .data
+            .par_chunks(chunk)
+            .zip(class_map.par_chunks(chunk))
+            .fold(
+                || vec![0u64; nbins],
+                |mut acc, (vals, cls)| {
+                    for (&v, &c) in vals.iter().zip(cls) {
+                        if c != crate::segment::NOT_MEASURED {
+                            acc[usize::from(v.min(plane.max_value)) >> bin_shift] += 1;
+                        }
+                    }
+                    acc
+                },
+            )
+            .reduce(
+                || vec![0u64; nbins],
+                |mut a, b| {
+                    for (x, y) in a.iter_mut().zip(b) {
+                        *x += y;
+                    }
+                    a
+                },
+            );
+        Self::from_counts(counts, bin_shift, plane.max_value)
+    }
+
     /// Counts per bin.
     pub fn counts(&self) -> &[u64] {
         &self.counts

@@ -342,30 +342,10 @@ pub fn segment(
         .map(|&b| if b { 0 } else { NOT_MEASURED })
         .collect();
     if let Some(vl) = void_level {
-        let voids: Vec<u8> = plane
-            .data
-            .par_iter()
-            .zip(&region.bits)
-            .map(|(&v, &r)| if r && v <= vl { 255 } else { 0 })
-            .collect();
-        let grown = if s.rim_px > 0 {
-            imageproc::morphology::dilate(&mask_image(w, h, voids)?, Norm::L2, s.rim_px).into_raw()
-        } else {
-            voids
-        };
-        class_map
-            .par_iter_mut()
-            .zip(grown.par_iter())
-            .for_each(|(c, &g)| {
-                if g != 0 {
-                    *c = NOT_MEASURED;
-                }
-            });
+        exclude_voids_with_rim(plane, region, vl, s.rim_px, &mut class_map);
     }
     control.step(0.3)?;
-    let measured: Vec<bool> = class_map.par_iter().map(|&c| c != NOT_MEASURED).collect();
-    let hist = Histogram::of_region(plane, Some(&measured), s.bin_shift)?;
-    drop(measured);
+    let hist = Histogram::of_class_map(plane, &class_map, s.bin_shift)?;
     let measured_pixels = hist.total();
     if measured_pixels == 0 {
         return Err(MicrographError::EmptyRegion {
@@ -671,12 +651,71 @@ pub fn remove_small_features(
     Ok(())
 }
 
-/// Pixels of class `c` at least `d` px (Euclidean) from any pixel not of class `c`.
+/// Pixels of class `c` at least `d` px from any pixel not of class `c`, by imageproc's
+/// chessboard (L-infinity) distance transform (Rosenfeld & Pfaltz 1966, two passes, one byte
+/// per pixel). Chessboard distance never exceeds the Euclidean one, so these cores are at
+/// least `d` px from any edge in the Euclidean sense too. (imageproc's L2 transform needs an
+/// `f64` image, 512 MiB at 8192 x 8192.)
 fn core_mask(class_map: &[u8], width: u32, height: u32, c: u8, d: u8) -> Result<Vec<bool>> {
     // imageproc: distance to the nearest foreground (non-zero) pixel; foreground = other class.
     let fg: Vec<u8> = class_map.par_iter().map(|&k| u8::from(k != c)).collect();
-    let dist = distance_transform(&mask_image(width, height, fg)?, Norm::L2).into_raw();
+    let dist = distance_transform(&mask_image(width, height, fg)?, Norm::LInf).into_raw();
     Ok(dist.par_iter().map(|&v| v >= d).collect())
+}
+
+/// Marks voids (region pixels at or below `void_level`) and every pixel within `rim_px`
+/// (Euclidean, pixel centres) of a void as `NOT_MEASURED`.
+///
+/// Own implementation rather than imageproc's `dilate(.., Norm::L2, ..)`: that computes an
+/// `f64` Euclidean distance transform of the whole image (8 bytes a pixel, 512 MiB at
+/// 8192 x 8192), while stamping a disc around the void boundary pixels needs no extra image.
+/// The result is the same set (all pixels at distance <= rim_px from a void pixel).
+pub fn exclude_voids_with_rim(
+    plane: &GrayPlane,
+    region: &Mask,
+    void_level: u16,
+    rim_px: u8,
+    class_map: &mut [u8],
+) {
+    let (w, h) = (plane.width as usize, plane.height as usize);
+    let is_void = |i: usize| region.bits[i] && plane.data[i] <= void_level;
+    // Boundary void pixels: void with a non-void 4-neighbour (or on the image border).
+    let boundary: Vec<usize> = (0..w * h)
+        .into_par_iter()
+        .filter(|&i| {
+            if !is_void(i) {
+                return false;
+            }
+            let (x, y) = (i % w, i / w);
+            x == 0
+                || y == 0
+                || x + 1 == w
+                || y + 1 == h
+                || !is_void(i - 1)
+                || !is_void(i + 1)
+                || !is_void(i - w)
+                || !is_void(i + w)
+        })
+        .collect();
+    class_map.par_iter_mut().enumerate().for_each(|(i, c)| {
+        if is_void(i) {
+            *c = NOT_MEASURED;
+        }
+    });
+    let r = i64::from(rim_px);
+    let disc: Vec<(i64, i64)> = (-r..=r)
+        .flat_map(|dy| (-r..=r).map(move |dx| (dx, dy)))
+        .filter(|&(dx, dy)| dx * dx + dy * dy <= r * r)
+        .collect();
+    for &i in &boundary {
+        let (x, y) = ((i % w) as i64, (i / w) as i64);
+        for &(dx, dy) in &disc {
+            let (xx, yy) = (x + dx, y + dy);
+            if xx >= 0 && yy >= 0 && (xx as usize) < w && (yy as usize) < h {
+                class_map[yy as usize * w + xx as usize] = NOT_MEASURED;
+            }
+        }
+    }
 }
 
 fn unmix(
@@ -721,4 +760,108 @@ fn unmix(
         area_fraction_ci95: ci,
         disagrees: false,
     }))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::synthetic::SyntheticSpec;
+    use std::sync::atomic::AtomicBool;
+
+    #[test]
+    fn rim_matches_imageproc_l2_dilation() {
+        // Source: imageproc 0.27 `morphology::dilate(.., Norm::L2, k)` on the same void mask;
+        // the two sets must be identical (same definition: distance <= k).
+        let spec = SyntheticSpec {
+            width: 96,
+            height: 80,
+            ..SyntheticSpec::default()
+        };
+        let plane = spec.generate().plane(96, 80, false).unwrap();
+        let region = Mask::full(96, 80);
+        let vl = 60u16;
+        for rim in [1u8, 2, 3] {
+            let mut ours = vec![0u8; plane.len()];
+            exclude_voids_with_rim(&plane, &region, vl, rim, &mut ours);
+            let voids: Vec<u8> = plane
+                .data
+                .iter()
+                .map(|&v| if v <= vl { 255 } else { 0 })
+                .collect();
+            let theirs =
+                imageproc::morphology::dilate(&mask_image(96, 80, voids).unwrap(), Norm::L2, rim);
+            for (a, b) in ours.iter().zip(theirs.as_raw()) {
+                assert_eq!(*a == NOT_MEASURED, *b != 0, "rim {rim}");
+            }
+        }
+    }
+
+    #[test]
+    fn histogram_fractions_equal_pixel_counts_without_clean_up() {
+        // Source: definition; with clean-up off, counting pixels and summing the histogram
+        // between levels must give identical integers.
+        let spec = SyntheticSpec {
+            width: 64,
+            height: 64,
+            ..SyntheticSpec::default()
+        };
+        let plane = spec.generate().plane(64, 64, true).unwrap();
+        let settings = SegmentSettings {
+            min_feature_px: 0,
+            ..SegmentSettings::default()
+        };
+        let seg = segment(&plane, &Mask::full(64, 64), &settings, &Control::none()).unwrap();
+        let f = seg.fractions_at(&seg.levels);
+        for (p, fh) in seg.phases.iter().zip(&f) {
+            assert!(
+                (p.area_fraction - fh).abs() < 1e-15,
+                "{} vs {fh}",
+                p.area_fraction
+            );
+        }
+    }
+
+    #[test]
+    fn cancel_flag_stops_the_job() {
+        let plane = SyntheticSpec {
+            width: 32,
+            height: 32,
+            ..SyntheticSpec::default()
+        }
+        .generate()
+        .plane(32, 32, false)
+        .unwrap();
+        let flag = AtomicBool::new(true);
+        let ctl = Control {
+            cancel: Some(&flag),
+            progress: None,
+        };
+        let err = segment(
+            &plane,
+            &Mask::full(32, 32),
+            &SegmentSettings::default(),
+            &ctl,
+        )
+        .unwrap_err();
+        assert!(matches!(err, MicrographError::Cancelled));
+    }
+
+    #[test]
+    fn bad_manual_levels_are_refused() {
+        let plane = SyntheticSpec {
+            width: 32,
+            height: 32,
+            ..SyntheticSpec::default()
+        }
+        .generate()
+        .plane(32, 32, false)
+        .unwrap();
+        let settings = SegmentSettings {
+            classes: 3,
+            levels: LevelChoice::Manual(vec![150, 100]),
+            ..SegmentSettings::default()
+        };
+        let err = segment(&plane, &Mask::full(32, 32), &settings, &Control::none()).unwrap_err();
+        assert!(err.to_string().contains("strictly increasing"), "{err}");
+    }
 }

@@ -39,6 +39,8 @@ pub struct SyntheticSpec {
     pub pores: Vec<(f64, f64, f64)>,
     /// Seed of the noise.
     pub seed: u64,
+    /// Sub-samples per pixel side for the exact coverage (8 for tests; 1 for huge images).
+    pub supersample: usize,
 }
 
 impl Default for SyntheticSpec {
@@ -58,6 +60,7 @@ impl Default for SyntheticSpec {
             cracks: vec![(10.0, 200.0, 240.0, 170.0, 2.0)],
             pores: vec![(70.0, 60.0, 9.0)],
             seed: 1,
+            supersample: 8,
         }
     }
 }
@@ -121,12 +124,12 @@ fn gaussian_blur(data: &[f32], w: usize, h: usize, sigma: f64) -> Vec<f32> {
 }
 
 impl SyntheticSpec {
-    /// Coverage of lamellae and voids per pixel by 8 x 8 supersampling.
+    /// Coverage of lamellae and voids per pixel by `supersample`² sub-samples.
     fn coverage(&self) -> (Vec<f32>, Vec<f32>) {
         let (w, h) = (self.width as usize, self.height as usize);
         let a = self.angle_deg.to_radians();
         let (nx, ny) = (-a.sin(), a.cos()); // normal to the lamellae
-        let ss = 8;
+        let ss = self.supersample.max(1);
         let mut lam = vec![0f32; w * h];
         let mut void = vec![0f32; w * h];
         lam.par_chunks_mut(w)
