@@ -94,7 +94,7 @@ pub fn run(args: &SegmentArgs) -> anyhow::Result<()> {
                 .to_string(),
         );
     }
-    let mut plane = image.gray_plane();
+    let mut plane = image.into_gray_plane();
     let roi = match &args.roi {
         Some(p) => Roi::load(p)?,
         None => Roi::default(),

@@ -183,6 +183,19 @@ impl Micrograph {
         }
     }
 
+    /// The greyscale plane, consuming the micrograph: 16-bit grey data is moved, not copied.
+    pub fn into_gray_plane(self) -> GrayPlane {
+        match self.pixels {
+            Pixels::Gray16(data) => GrayPlane {
+                width: self.width,
+                height: self.height,
+                data,
+                max_value: u16::MAX,
+            },
+            _ => self.gray_plane(),
+        }
+    }
+
     /// Colour pixels as 8-bit sRGB triplets (16-bit colour is scaled down; grey is repeated).
     pub fn rgb8(&self) -> Vec<[u8; 3]> {
         match &self.pixels {
