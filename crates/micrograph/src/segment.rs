@@ -574,7 +574,128 @@ fn class_gray_sums(plane: &GrayPlane, class_map: &[u8], classes: usize) -> Vec<f
 /// along their border. Labelling by imageproc's `connected_components` (two-pass union-find,
 /// Rosenfeld & Pfaltz 1966, "Sequential operations in digital picture processing", J. ACM
 /// 13(4):471-494).
+///
+/// For `min_px <= 9` (the usual noise clean-up) a bounded search is used instead: a pixel with
+/// at least `min_px - 1` same-class 8-neighbours is in a large feature; from any other pixel a
+/// flood fill stops as soon as it has found `min_px` pixels. Same result as the labelling,
+/// with no label image (4 bytes a pixel, 256 MiB at 8192 x 8192) and a fraction of the time.
 pub fn remove_small_features(
+    class_map: &mut [u8],
+    width: u32,
+    height: u32,
+    min_px: u32,
+    classes: usize,
+) -> Result<()> {
+    if min_px <= 9 {
+        remove_small_features_bounded(
+            class_map,
+            width as usize,
+            height as usize,
+            min_px as usize,
+            classes,
+        );
+        return Ok(());
+    }
+    remove_small_features_labelled(class_map, width, height, min_px, classes)
+}
+
+fn remove_small_features_bounded(
+    class_map: &mut [u8],
+    w: usize,
+    h: usize,
+    min_px: usize,
+    classes: usize,
+) {
+    let src: &[u8] = class_map;
+    let neighbours8 = |i: usize| {
+        let (x, y) = ((i % w) as i64, (i / w) as i64);
+        [
+            (-1i64, -1i64),
+            (0, -1),
+            (1, -1),
+            (-1, 0),
+            (1, 0),
+            (-1, 1),
+            (0, 1),
+            (1, 1),
+        ]
+        .into_iter()
+        .filter_map(move |(dx, dy)| {
+            let (xx, yy) = (x + dx, y + dy);
+            (xx >= 0 && yy >= 0 && (xx as usize) < w && (yy as usize) < h)
+                .then(|| yy as usize * w + xx as usize)
+        })
+    };
+    let changes: Vec<(usize, u8)> = (0..h)
+        .into_par_iter()
+        .flat_map_iter(|y| {
+            let mut out = Vec::new();
+            let mut comp: Vec<usize> = Vec::with_capacity(min_px);
+            for i in y * w..(y + 1) * w {
+                let c = src[i];
+                if c == NOT_MEASURED {
+                    continue;
+                }
+                if neighbours8(i).filter(|&j| src[j] == c).count() + 1 >= min_px {
+                    continue;
+                }
+                comp.clear();
+                comp.push(i);
+                let mut k = 0;
+                while k < comp.len() && comp.len() < min_px {
+                    let p = comp[k];
+                    for j in neighbours8(p) {
+                        if src[j] == c && !comp.contains(&j) {
+                            comp.push(j);
+                            if comp.len() >= min_px {
+                                break;
+                            }
+                        }
+                    }
+                    k += 1;
+                }
+                if comp.len() >= min_px {
+                    continue;
+                }
+                let mut votes = [0u32; 16];
+                for &p in &comp {
+                    let (x, yy) = (p % w, p / w);
+                    let mut vote = |j: usize| {
+                        if src[j] != c && src[j] != NOT_MEASURED {
+                            votes[usize::from(src[j]).min(15)] += 1;
+                        }
+                    };
+                    if x > 0 {
+                        vote(p - 1);
+                    }
+                    if x + 1 < w {
+                        vote(p + 1);
+                    }
+                    if yy > 0 {
+                        vote(p - w);
+                    }
+                    if yy + 1 < h {
+                        vote(p + w);
+                    }
+                }
+                let (best, n) = votes[..classes.min(16)].iter().enumerate().fold(
+                    (0usize, 0u32),
+                    // Last maximum on ties, as `Iterator::max_by_key` in the labelled path.
+                    |acc, (k, &n)| if n > 0 && n >= acc.1 { (k, n) } else { acc },
+                );
+                if n > 0 {
+                    out.push((i, best as u8));
+                }
+            }
+            out
+        })
+        .collect();
+    for (i, c) in changes {
+        class_map[i] = c;
+    }
+}
+
+fn remove_small_features_labelled(
     class_map: &mut [u8],
     width: u32,
     height: u32,
@@ -818,6 +939,47 @@ mod tests {
                 "{} vs {fh}",
                 p.area_fraction
             );
+        }
+    }
+
+    #[test]
+    fn bounded_clean_up_equals_labelled_clean_up() {
+        // Source: imageproc 0.27 `connected_components` (the labelled path) on the same noisy
+        // class map; the bounded search must change exactly the same pixels the same way.
+        let spec = SyntheticSpec {
+            width: 120,
+            height: 90,
+            noise_sigma: 0.09,
+            ..SyntheticSpec::default()
+        };
+        let plane = spec.generate().plane(120, 90, false).unwrap();
+        let base: Vec<u8> = plane
+            .data
+            .iter()
+            .enumerate()
+            .map(|(i, &v)| {
+                if i % 97 == 0 {
+                    NOT_MEASURED
+                } else if v > 150 {
+                    2
+                } else if v > 120 {
+                    1
+                } else {
+                    0
+                }
+            })
+            .collect();
+        for min_px in 2..=9u32 {
+            let mut a = base.clone();
+            let mut b = base.clone();
+            remove_small_features_bounded(&mut a, 120, 90, min_px as usize, 3);
+            remove_small_features_labelled(&mut b, 120, 90, min_px, 3).unwrap();
+            assert!(
+                a.iter().zip(&base).any(|(x, y)| x != y),
+                "nothing to clean at min_px {min_px}"
+            );
+            let differ = a.iter().zip(&b).filter(|(x, y)| x != y).count();
+            assert_eq!(differ, 0, "min_px {min_px}: {differ} pixels differ");
         }
     }
 
