@@ -199,3 +199,31 @@ proptest! {
         let _ = load(&p, &LoadOptions::default());
     }
 }
+
+#[test]
+fn formats_round_trip_at_their_depth() {
+    // Source: the `image` crate's encoders (independent of our loader); lossless formats must
+    // give back the exact values, JPEG within its quantisation (8 grey levels on a flat area).
+    let g16 = image::ImageBuffer::<image::Luma<u16>, Vec<u16>>::from_fn(20, 10, |x, y| {
+        image::Luma([(x * 3000 + y) as u16])
+    });
+    let mut buf = std::io::Cursor::new(Vec::new());
+    g16.write_to(&mut buf, image::ImageFormat::Tiff).unwrap();
+    let m = load(&tmp("g16.tif", &buf.into_inner()), &LoadOptions::default()).unwrap();
+    assert!(matches!(m.pixels(), Pixels::Gray16(v) if v[19] == 57000));
+
+    let rgb = image::RgbImage::from_fn(20, 10, |x, _| image::Rgb([x as u8 * 10, 50, 200]));
+    let mut buf = std::io::Cursor::new(Vec::new());
+    rgb.write_to(&mut buf, image::ImageFormat::Bmp).unwrap();
+    let m = load(&tmp("c.bmp", &buf.into_inner()), &LoadOptions::default()).unwrap();
+    assert!(matches!(m.pixels(), Pixels::Rgb8(v) if v[3] == [30, 50, 200]));
+
+    let g8 = image::GrayImage::from_pixel(16, 16, image::Luma([140]));
+    let mut buf = std::io::Cursor::new(Vec::new());
+    g8.write_to(&mut buf, image::ImageFormat::Jpeg).unwrap();
+    let m = load(&tmp("g.jpg", &buf.into_inner()), &LoadOptions::default()).unwrap();
+    match m.pixels() {
+        Pixels::Gray8(v) => assert!((i32::from(v[40]) - 140).abs() <= 8),
+        other => panic!("expected 8-bit grey, got {other:?}"),
+    }
+}
