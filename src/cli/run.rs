@@ -39,9 +39,14 @@ pub fn run(args: &RunArgs) -> anyhow::Result<()> {
     if let Some(draws) = args.draws {
         project.settings.draws = draws;
     }
-    let result = run_project(&project, &args.project, &StderrProgress, &JobControl::default())
-        .map_err(anyhow::Error::msg)
-        .with_context(|| format!("running {}", args.project.display()))?;
+    let result = run_project(
+        &project,
+        &args.project,
+        &StderrProgress,
+        &JobControl::default(),
+    )
+    .map_err(anyhow::Error::msg)
+    .with_context(|| format!("running {}", args.project.display()))?;
     write_outputs(&project, &result, &args.out)?;
     if args.json {
         println!(

@@ -39,9 +39,11 @@ fn write_image(dir: &Path, shot: &Shot) -> PathBuf {
         cracks: vec![(20.0, 400.0, 610.0, 330.0, 2.5)],
         pores: vec![(150.0, 110.0, 12.0), (480.0, 260.0, 7.0)],
         seed: shot.seed,
+        ..SyntheticSpec::default()
     };
     let plane = spec.generate().plane(640, 480, true).unwrap();
-    let img = image::ImageBuffer::<image::Luma<u16>, Vec<u16>>::from_raw(640, 480, plane.data).unwrap();
+    let img =
+        image::ImageBuffer::<image::Luma<u16>, Vec<u16>>::from_raw(640, 480, plane.data).unwrap();
     let path = dir.join("images").join(shot.file);
     std::fs::create_dir_all(path.parent().unwrap()).unwrap();
     img.save(&path).unwrap();
@@ -64,7 +66,12 @@ fn region() -> Roi {
             [40.0, 455.0],
             [14.0, 240.0],
         ])],
-        exclude: vec![Polygon(vec![[300.0, 200.0], [360.0, 196.0], [362.0, 214.0], [302.0, 218.0]])],
+        exclude: vec![Polygon(vec![
+            [300.0, 200.0],
+            [360.0, 196.0],
+            [362.0, 214.0],
+            [302.0, 218.0],
+        ])],
     }
 }
 
@@ -98,8 +105,14 @@ fn main() {
         id: id.into(),
         system: MineralSystem::Feldspar,
         phases: vec![
-            PhaseSpec { label: "host".into(), density_g_cm3: None },
-            PhaseSpec { label: "lamella".into(), density_g_cm3: None },
+            PhaseSpec {
+                label: "host".into(),
+                density_g_cm3: None,
+            },
+            PhaseSpec {
+                label: "lamella".into(),
+                density_g_cm3: None,
+            },
         ],
         micrographs,
         notes: String::new(),
@@ -108,49 +121,99 @@ fn main() {
         id: id.into(),
         system: MineralSystem::Pyroxene,
         phases: vec![
-            PhaseSpec { label: "augite".into(), density_g_cm3: None },
-            PhaseSpec { label: "opx-lamella".into(), density_g_cm3: None },
+            PhaseSpec {
+                label: "augite".into(),
+                density_g_cm3: None,
+            },
+            PhaseSpec {
+                label: "opx-lamella".into(),
+                density_g_cm3: None,
+            },
         ],
         micrographs,
         notes: String::new(),
     };
     let mut project = Project::new("Tarn Moss (invented demo)");
-    project.description = "An invented syenite and gabbro for trying Consolute; no real locality or data.".into();
+    project.description =
+        "An invented syenite and gabbro for trying Consolute; no real locality or data.".into();
     project.analysis_files = vec![
-        AnalysisFile { path: "analyses.csv".into(), system: MineralSystem::Feldspar },
-        AnalysisFile { path: "pyroxene_analyses.csv".into(), system: MineralSystem::Pyroxene },
+        AnalysisFile {
+            path: "analyses.csv".into(),
+            system: MineralSystem::Feldspar,
+        },
+        AnalysisFile {
+            path: "pyroxene_analyses.csv".into(),
+            system: MineralSystem::Pyroxene,
+        },
     ];
     project.samples = vec![
         Sample {
             id: "TM-01".into(),
             description: "coarse alkali syenite, core of the invented intrusion".into(),
             grains: vec![
-                feldspar_grain("g1", vec![
-                    micrograph(dir, "bse-1", &shot("tm01_g1_a.png", 23.0, 8.5, 63.0, 0.68, 0.47, 11), fsp),
-                    micrograph(dir, "bse-2", &shot("tm01_g1_b.png", 25.0, 9.0, 58.0, 0.69, 0.46, 12), fsp),
-                ]),
-                feldspar_grain("g2", vec![micrograph(
-                    dir, "bse-1", &shot("tm01_g2_a.png", 19.0, 7.5, 115.0, 0.67, 0.47, 21), fsp,
-                )]),
+                feldspar_grain(
+                    "g1",
+                    vec![
+                        micrograph(
+                            dir,
+                            "bse-1",
+                            &shot("tm01_g1_a.png", 23.0, 8.5, 63.0, 0.68, 0.47, 11),
+                            fsp,
+                        ),
+                        micrograph(
+                            dir,
+                            "bse-2",
+                            &shot("tm01_g1_b.png", 25.0, 9.0, 58.0, 0.69, 0.46, 12),
+                            fsp,
+                        ),
+                    ],
+                ),
+                feldspar_grain(
+                    "g2",
+                    vec![micrograph(
+                        dir,
+                        "bse-1",
+                        &shot("tm01_g2_a.png", 19.0, 7.5, 115.0, 0.67, 0.47, 21),
+                        fsp,
+                    )],
+                ),
             ],
         },
         Sample {
             id: "TM-04".into(),
             description: "finer syenite near the invented margin".into(),
-            grains: vec![feldspar_grain("g1", vec![micrograph(
-                dir, "bse-1", &shot("tm04_g1_a.png", 15.0, 4.5, 35.0, 0.68, 0.48, 31), fsp,
-            )])],
+            grains: vec![feldspar_grain(
+                "g1",
+                vec![micrograph(
+                    dir,
+                    "bse-1",
+                    &shot("tm04_g1_a.png", 15.0, 4.5, 35.0, 0.68, 0.48, 31),
+                    fsp,
+                )],
+            )],
         },
         Sample {
             id: "TM-09".into(),
             description: "gabbro screen with exsolved augite".into(),
             grains: vec![
-                pyroxene_grain("p1", vec![micrograph(
-                    dir, "bse-1", &shot("tm09_p1_a.png", 30.0, 6.0, 80.0, 0.50, 0.66, 41), px,
-                )]),
-                pyroxene_grain("p2", vec![micrograph(
-                    dir, "bse-1", &shot("tm09_p2_a.png", 26.0, 5.5, 20.0, 0.51, 0.65, 42), px,
-                )]),
+                pyroxene_grain(
+                    "p1",
+                    vec![micrograph(
+                        dir,
+                        "bse-1",
+                        &shot("tm09_p1_a.png", 30.0, 6.0, 80.0, 0.50, 0.66, 41),
+                        px,
+                    )],
+                ),
+                pyroxene_grain(
+                    "p2",
+                    vec![micrograph(
+                        dir,
+                        "bse-1",
+                        &shot("tm09_p2_a.png", 26.0, 5.5, 20.0, 0.51, 0.65, 42),
+                        px,
+                    )],
+                ),
             ],
         },
     ];

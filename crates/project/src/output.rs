@@ -130,7 +130,8 @@ fn fmt_opt(v: Option<f64>, decimals: usize) -> String {
 
 /// `phases.csv`: one row per phase of each grain.
 pub fn phases_csv(run: &RunResult) -> String {
-    let mut out = String::from("sample,grain,phase,spots_used,spots_excluded,composition,volume_fraction\n");
+    let mut out =
+        String::from("sample,grain,phase,spots_used,spots_excluded,composition,volume_fraction\n");
     for g in &run.grains {
         for (i, p) in g.phases.iter().enumerate() {
             let comp: Vec<String> = g
@@ -148,7 +149,11 @@ pub fn phases_csv(run: &RunResult) -> String {
                 p.spots_used.len(),
                 p.spots_excluded.len(),
                 csv_field(&comp.join(" ")),
-                g.reintegration.volume_fractions.get(i).copied().unwrap_or(0.0)
+                g.reintegration
+                    .volume_fractions
+                    .get(i)
+                    .copied()
+                    .unwrap_or(0.0)
             );
         }
     }
@@ -157,7 +162,9 @@ pub fn phases_csv(run: &RunResult) -> String {
 
 /// `bulk.csv`: one row per grain, bulk fraction medians and 95 % intervals.
 pub fn bulk_csv(run: &RunResult) -> String {
-    let mut out = String::from("sample,grain,system,end_member,median,p2_5,p97_5,molar_route_nominal,mass_route_nominal\n");
+    let mut out = String::from(
+        "sample,grain,system,end_member,median,p2_5,p97_5,molar_route_nominal,mass_route_nominal\n",
+    );
     for g in &run.grains {
         for (j, s) in g.monte_carlo.bulk.iter().enumerate() {
             let _ = writeln!(
@@ -276,7 +283,13 @@ pub fn write_outputs(project: &Project, run: &RunResult, dir: &Path) -> Result<(
     write_atomically(&dir.join("results.json"), results.as_bytes())?;
     write_atomically(&dir.join("phases.csv"), phases_csv(run).as_bytes())?;
     write_atomically(&dir.join("bulk.csv"), bulk_csv(run).as_bytes())?;
-    write_atomically(&dir.join("temperatures.csv"), temperatures_csv(run).as_bytes())?;
-    write_atomically(&dir.join("summary.txt"), summary_text(project, run).as_bytes())?;
+    write_atomically(
+        &dir.join("temperatures.csv"),
+        temperatures_csv(run).as_bytes(),
+    )?;
+    write_atomically(
+        &dir.join("summary.txt"),
+        summary_text(project, run).as_bytes(),
+    )?;
     Ok(())
 }

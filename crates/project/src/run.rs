@@ -75,6 +75,8 @@ pub struct MicrographResult {
     pub level_sensitivity: Option<Vec<(f64, f64)>>,
     /// Linear-unmixing estimate per phase, when available (two phases).
     pub unmixing_fractions: Option<Vec<f64>>,
+    /// Shape of the minority phase (the lamellae).
+    pub morphometry: Option<micrograph::morphometry::Morphometry>,
     /// Warnings from the image analysis.
     pub warnings: Vec<String>,
 }
@@ -183,7 +185,15 @@ pub fn run_project(
             return Err("cancelled".into());
         }
         progress.grain(index, grains.len(), &sample.id, &grain.id);
-        match run_grain(project, project_file, &model, &tables, sample, grain, control) {
+        match run_grain(
+            project,
+            project_file,
+            &model,
+            &tables,
+            sample,
+            grain,
+            control,
+        ) {
             Ok(result) => out.grains.push(result),
             Err(message) => out.failures.push(GrainFailure {
                 sample: sample.id.clone(),
@@ -256,7 +266,11 @@ fn phase_from_spots(
             if fractions.len() < 2 {
                 0.0
             } else {
-                (fractions.iter().map(|x| (x[j] - mean[j]).powi(2)).sum::<f64>() / (n - 1.0))
+                (fractions
+                    .iter()
+                    .map(|x| (x[j] - mean[j]).powi(2))
+                    .sum::<f64>()
+                    / (n - 1.0))
                     .sqrt()
             }
         })
@@ -314,7 +328,10 @@ fn run_micrograph(
     let mut unmix = seg.unmixing.as_ref().map(|_| vec![0.0; n]);
     for (class, label) in spec.class_phases.iter().enumerate() {
         let i = phase_index(label).ok_or_else(|| {
-            format!("{place}: class {} is assigned to '{label}', which is not a phase of the grain", class + 1)
+            format!(
+                "{place}: class {} is assigned to '{label}', which is not a phase of the grain",
+                class + 1
+            )
         })?;
         let p = &seg.phases[class];
         fractions[i] += p.area_fraction;
@@ -339,6 +356,28 @@ fn run_micrograph(
         pairs
     });
     let mut warnings = seg.warnings.clone();
+    // Shape of the minority phase (the lamellae): width, spacing, and a warning when they are
+    // too thin for edge blur to leave the area fraction reliable.
+    let minority = seg
+        .phases
+        .iter()
+        .enumerate()
+        .min_by(|a, b| a.1.area_fraction.total_cmp(&b.1.area_fraction))
+        .map(|(class, _)| class as u8);
+    let morphometry = minority.and_then(|class| {
+        micrograph::morphometry::morphometry(
+            &seg.class_map,
+            seg.width,
+            seg.height,
+            class,
+            settings.pixel_size,
+            &Control::none(),
+        )
+        .ok()
+    });
+    if let Some(m) = &morphometry {
+        warnings.extend(m.warnings.iter().cloned());
+    }
     if seg.unmixing.as_ref().is_some_and(|u| u.disagrees) {
         warnings.push("the classification and linear-unmixing fractions disagree beyond their intervals: check the levels and the edge blur".to_string());
     }
@@ -355,18 +394,25 @@ fn run_micrograph(
         ci95: lo.into_iter().zip(hi).collect(),
         level_sensitivity,
         unmixing_fractions: unmix,
+        morphometry,
         warnings,
     })
 }
 
-fn pair_result(model: &SolutionModel, a: &[f64], b: &[f64], p_kbar: f64, unc: f64) -> Option<PairResult> {
+fn pair_result(
+    model: &SolutionModel,
+    a: &[f64],
+    b: &[f64],
+    p_kbar: f64,
+    unc: f64,
+) -> Option<PairResult> {
     let c1 = Composition::new(a[0], a[1], a[2]).ok()?;
     let c2 = Composition::new(b[0], b[1], b[2]).ok()?;
     let pt = pair_temperatures(model, &c1, &c2, bar_from_kbar(p_kbar)).ok()?;
     let mut notes = Vec::new();
-    let temperatures_c = pt.components().map(|c| {
-        c.temperature_k().map(celsius_from_kelvin)
-    });
+    let temperatures_c = pt
+        .components()
+        .map(|c| c.temperature_k().map(celsius_from_kelvin));
     for (name, c) in ["Ab", "Or", "An"].iter().zip(pt.components()) {
         if let solvus::thermometry::ComponentTemperature::NoRootInRange { reason } = c {
             notes.push(format!("T_{name}: {reason}"));
@@ -447,8 +493,7 @@ fn run_grain(
             })
             .collect(),
     };
-    let (excess, thermometer): (&dyn ExcessVolume, Option<SolvusThermometer>) = match grain.system
-    {
+    let (excess, thermometer): (&dyn ExcessVolume, Option<SolvusThermometer>) = match grain.system {
         MineralSystem::Feldspar => (
             model,
             Some(SolvusThermometer {
@@ -457,8 +502,7 @@ fn run_grain(
         ),
         MineralSystem::Pyroxene => (&IdealVolume, None),
     };
-    let reintegrated =
-        reintegrate(&input, &settings.volumes, excess).map_err(|e| e.to_string())?;
+    let reintegrated = reintegrate(&input, &settings.volumes, excess).map_err(|e| e.to_string())?;
     let mc_settings = MonteCarloSettings {
         draws: settings.draws,
         seed: settings.seed,
