@@ -338,11 +338,67 @@ pub fn binodal(
     binodal_join(&j, None)
 }
 
+/// Newton's method on the two equal-potential equations in the logits of both compositions,
+/// from a nearby solution (continuation). `None` unless it converges outside the spinodal, in
+/// which case the caller falls back to the bracketed common-tangent solver.
+fn binodal_newton(j: &AbOrJoin, sp: (f64, f64), start: (f64, f64)) -> Option<(f64, f64)> {
+    let (s1, s2) = sp;
+    if !(start.0 > 0.0 && start.0 < s1 && start.1 > s2 && start.1 < 1.0) {
+        return None;
+    }
+    let mut u = [logit(start.0), logit(start.1)];
+    let tol = 1e-10 * j.rt;
+    for _ in 0..25 {
+        let x = [from_logit(u[0]), from_logit(u[1])];
+        let (a1, o1) = mu_ab_or(j, x[0]);
+        let (a2, o2) = mu_ab_or(j, x[1]);
+        let f = [a1 - a2, o1 - o2];
+        let d = |x: f64| {
+            let (_, g2) = j.g12(x);
+            g2 * x * (1.0 - x)
+        };
+        let (d1, d2) = (d(x[0]), d(x[1]));
+        // d mu_Ab / du = -x G'' x(1-x); d mu_Or / du = (1-x) G'' x(1-x)
+        let m = [
+            [-x[0] * d1, x[1] * d2],
+            [(1.0 - x[0]) * d1, -(1.0 - x[1]) * d2],
+        ];
+        let step = crate::numeric::solve2(m, [-f[0], -f[1]])?;
+        let big = step[0].abs().max(step[1].abs());
+        let scale = if big > 2.0 { 2.0 / big } else { 1.0 };
+        u = [u[0] + scale * step[0], u[1] + scale * step[1]];
+        if !(u[0].is_finite() && u[1].is_finite()) {
+            return None;
+        }
+        if big < 1e-12 || (f[0].abs() < tol && f[1].abs() < tol && big < 1e-9) {
+            let x = (from_logit(u[0]), from_logit(u[1]));
+            return (x.0 < s1 && x.1 > s2).then_some(x);
+        }
+    }
+    None
+}
+
+/// `(mu_Ab, mu_Or)` on the Ab-Or join relative to the pure end members, closed form.
+fn mu_ab_or(j: &AbOrJoin, x: f64) -> (f64, f64) {
+    let y = 1.0 - x;
+    (
+        j.rt * y.ln() + x * x * (j.wa + 2.0 * (j.wb - j.wa) * y),
+        j.rt * x.ln() + y * y * (j.wb + 2.0 * (j.wa - j.wb) * x),
+    )
+}
+
 fn binodal_join(j: &AbOrJoin, warm: Option<(f64, f64)>) -> Result<BinodalOutcome, SolvusError> {
     let Some(sp) = spinodal_ab_or(j) else {
         return Ok(BinodalOutcome::NoGap);
     };
-    let (x1, x2, _) = binodal_on_join(j, sp, warm)?;
+    let fast = warm.and_then(|w| binodal_newton(j, sp, w));
+    let (x1, x2) = match fast {
+        Some(v) => v,
+        None => {
+            let (x1, x2, _) = binodal_on_join(j, sp, warm)?;
+            (x1, x2)
+        }
+    };
     Ok(BinodalOutcome::Gap(BinodalPair {
         x_or_na_limb: x1,
         x_or_k_limb: x2,
@@ -388,15 +444,26 @@ pub fn solvus_curve(
         spinodal_k: critical.x_or,
     });
     let span = critical.temperature_k - t_min_k;
-    let mut warm = None;
+    // previous two solutions, for a linear predictor in T
+    let mut last: Option<(f64, f64, f64)> = None;
+    let mut before: Option<(f64, f64, f64)> = None;
     if span > 0.0 {
         for k in 1..=n_points {
             let f = k as f64 / n_points as f64;
             let t = critical.temperature_k - span * f * f;
             let j = lin.join(t);
+            let warm = match (last, before) {
+                (Some((t1, a1, b1)), Some((t0, a0, b0))) => {
+                    let r = (t - t1) / (t1 - t0);
+                    Some((a1 + (a1 - a0) * r, b1 + (b1 - b0) * r))
+                }
+                (Some((_, a1, b1)), None) => Some((a1, b1)),
+                _ => None,
+            };
             match binodal_join(&j, warm)? {
                 BinodalOutcome::Gap(p) => {
-                    warm = Some((p.x_or_na_limb, p.x_or_k_limb));
+                    before = last;
+                    last = Some((t, p.x_or_na_limb, p.x_or_k_limb));
                     points.push(SolvusPoint {
                         temperature_k: t,
                         x_or_na_limb: p.x_or_na_limb,
@@ -434,12 +501,14 @@ pub(crate) fn limb_temperature(
     let na_side = x_or < x_c;
     // f(T) = distance of x_or inside the limb: positive when outside the gap.
     let failure = std::cell::RefCell::new(None);
+    let warm = std::cell::Cell::new(None);
     let f = |t: f64| -> f64 {
         if t >= critical.temperature_k {
             return (x_c - x_or).abs();
         }
-        match binodal_join(&lin.join(t), None) {
+        match binodal_join(&lin.join(t), warm.get()) {
             Ok(BinodalOutcome::Gap(p)) => {
+                warm.set(Some((p.x_or_na_limb, p.x_or_k_limb)));
                 if na_side {
                     p.x_or_na_limb - x_or
                 } else {
@@ -473,7 +542,7 @@ pub(crate) fn limb_temperature(
         detail: format!("X_Or {x_or}"),
     })?;
     // conjugate composition at that temperature
-    let conj = match binodal_join(&lin.join(t), None)? {
+    let conj = match binodal_join(&lin.join(t), warm.get())? {
         BinodalOutcome::Gap(p) => {
             if na_side {
                 p.x_or_k_limb
