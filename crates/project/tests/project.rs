@@ -192,3 +192,79 @@ fn a_missing_image_fails_its_grain_only() {
     );
     assert_eq!(run.grains.len(), 4);
 }
+
+#[test]
+fn save_load_save_is_byte_identical() {
+    let dir = temp_dir("bytes");
+    let a = dir.join("a.json");
+    let b = dir.join("b.json");
+    let p = load_project(&demo_file()).expect("demo loads");
+    save_project(&p, &a).expect("save");
+    save_project(&load_project(&a).expect("load"), &b).expect("save again");
+    assert_eq!(std::fs::read(&a).expect("a"), std::fs::read(&b).expect("b"));
+}
+
+#[test]
+fn a_truncated_file_gives_a_located_error_and_stays_untouched() {
+    let dir = temp_dir("truncated");
+    let path = dir.join("study.json");
+    let full = project_json(&load_project(&demo_file()).expect("demo loads"));
+    let cut = &full.as_bytes()[..full.len() / 2];
+    std::fs::write(&path, cut).expect("write");
+    let err = load_project(&path).expect_err("truncated");
+    let ProjectError::Syntax { line, column, .. } = err else {
+        panic!("{err}");
+    };
+    assert!(line > 1 && column > 0);
+    assert_eq!(std::fs::read(&path).expect("read"), cut);
+}
+
+/// Child side of the kill test: save two alternating versions of a project as fast as possible
+/// until killed.
+#[test]
+fn save_child_process() {
+    let Ok(path) = std::env::var("CONSOLUTE_SAVE_CHILD_PATH") else {
+        return; // only does work when started by the kill test
+    };
+    let path = PathBuf::from(path);
+    let mut p = load_project(&demo_file()).expect("demo loads");
+    for i in 0u64.. {
+        p.name = format!("version {i}");
+        p.description = "x".repeat((i % 7) as usize * 5000);
+        save_project(&p, &path).expect("save");
+    }
+}
+
+#[test]
+fn killing_a_save_never_corrupts_the_project() {
+    // A child process saves in a loop; we kill it at varied moments and the file on disk must
+    // always load as a whole project (the last complete save), never a partial one.
+    let dir = temp_dir("kill");
+    let path = dir.join("study.json");
+    save_project(&load_project(&demo_file()).expect("demo"), &path).expect("first save");
+    let exe = std::env::current_exe().expect("test binary");
+    let mut saw_child_saves = 0;
+    for round in 0..20u64 {
+        let mut child = std::process::Command::new(&exe)
+            .args([
+                "--exact",
+                "save_child_process",
+                "--nocapture",
+                "--test-threads",
+                "1",
+            ])
+            .env("CONSOLUTE_SAVE_CHILD_PATH", &path)
+            .stdout(std::process::Stdio::null())
+            .stderr(std::process::Stdio::null())
+            .spawn()
+            .expect("child starts");
+        std::thread::sleep(std::time::Duration::from_millis(30 + (round * 37) % 90));
+        child.kill().expect("kill");
+        let _ = child.wait();
+        let p = load_project(&path).unwrap_or_else(|e| panic!("round {round}: {e}"));
+        assert!(p.name.starts_with("version") || p.name.contains("Tarn Moss"));
+        saw_child_saves += usize::from(p.name.starts_with("version"));
+    }
+    // The test is only meaningful if the children got to save before being killed.
+    assert!(saw_child_saves >= 10, "{saw_child_saves}");
+}

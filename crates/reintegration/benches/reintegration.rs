@@ -76,5 +76,40 @@ fn benches(c: &mut Criterion) {
     });
 }
 
-criterion_group!(all, benches);
+/// Issue 5 targets: 100 000 draws with a binary minimum temperature under 3 s, and 10 000 draws
+/// with a ternary one under 10 s, on 2 cores.
+fn large_runs(c: &mut Criterion) {
+    let g = grain();
+    let mut group = c.benchmark_group("monte_carlo_large");
+    group.sample_size(10);
+    for (model_id, draws) in [("haselton1983", 100_000usize), ("fl1988", 10_000)] {
+        let model = solvus::model::SolutionModel::builtin(model_id).unwrap();
+        let thermometer = SolvusThermometer {
+            model: model.clone(),
+        };
+        let settings = MonteCarloSettings {
+            draws,
+            pressure_sigma_kbar: 0.5,
+            ..MonteCarloSettings::default()
+        };
+        group.bench_function(format!("{draws}_draws_{model_id}"), |b| {
+            b.iter(|| {
+                let r = monte_carlo(
+                    &g,
+                    &VolumeSettings::default(),
+                    &model,
+                    Some(&thermometer),
+                    &settings,
+                    &JobControl::default(),
+                )
+                .unwrap();
+                assert!(r.outcomes.found > draws / 2);
+                r
+            })
+        });
+    }
+    group.finish();
+}
+
+criterion_group!(all, benches, large_runs);
 criterion_main!(all);

@@ -359,3 +359,77 @@ proptest! {
         let _: &BTreeMap<Oxide, f64> = &r.bulk_oxides_wt;
     }
 }
+
+#[test]
+fn one_phase_gives_back_its_own_composition() {
+    // Source: mass balance (a single phase is its own bulk). Tolerance 1e-12: rounding only.
+    let grain = GrainInput {
+        phases: vec![phase("only", &[0.2, 0.7, 0.1])],
+        micrographs: vec![modal(&[1.0], 0.0)],
+        ..worked_example_grain()
+    };
+    let r = reintegrate(&grain, &VolumeSettings::default(), &SymmetricAbOr(0.394)).expect("ok");
+    for (got, want) in r.molar.iter().zip([0.2, 0.7, 0.1]) {
+        assert!((got - want).abs() < 1e-12);
+    }
+    for (got, want) in r.mass.iter().zip([0.2, 0.7, 0.1]) {
+        assert!((got - want).abs() < 1e-9);
+    }
+}
+
+#[test]
+fn two_phases_of_one_composition_give_that_composition() {
+    // Source: mass balance; whatever the fractions, a mixture of identical phases is that phase.
+    for f in [0.0, 0.13, 0.5, 0.98, 1.0] {
+        let grain = GrainInput {
+            phases: vec![phase("a", &[0.3, 0.6, 0.1]), phase("b", &[0.3, 0.6, 0.1])],
+            micrographs: vec![modal(&[f, 1.0 - f], 0.0)],
+            ..worked_example_grain()
+        };
+        let r = reintegrate(&grain, &VolumeSettings::default(), &SymmetricAbOr(0.394)).expect("ok");
+        for (got, want) in r.molar.iter().zip([0.3, 0.6, 0.1]) {
+            assert!((got - want).abs() < 1e-12, "f = {f}");
+        }
+    }
+}
+
+#[test]
+fn small_uncertainties_put_the_median_on_the_point_result() {
+    // With uncertainties ten times smaller than the demo's, the Monte Carlo median must sit within
+    // 1e-4 of the point result (a first-order effect of the uncertainty, here ~1e-3 x slope).
+    let mut grain = worked_example_grain();
+    grain.micrographs = vec![modal(&[0.6, 0.4], 0.002)];
+    for p in &mut grain.phases {
+        p.sigma = vec![0.0005; 3];
+    }
+    let settings = MonteCarloSettings {
+        draws: 2000,
+        volume_rel_sigma: 0.0002,
+        temperatures: false,
+        ..MonteCarloSettings::default()
+    };
+    let mc = run(&grain, &settings);
+    let det = reintegrate(&grain, &VolumeSettings::default(), &SymmetricAbOr(0.394)).expect("ok");
+    for j in 0..3 {
+        assert!((mc.bulk[j].median - det.molar[j]).abs() < 1e-4, "{j}");
+    }
+}
+
+#[test]
+fn one_and_two_threads_give_the_same_numbers() {
+    let settings = MonteCarloSettings {
+        draws: 300,
+        seed: 5,
+        temperatures: false,
+        ..MonteCarloSettings::default()
+    };
+    let grain = worked_example_grain();
+    let with = |threads: usize| {
+        rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .expect("pool")
+            .install(|| run(&grain, &settings))
+    };
+    assert_eq!(with(1), with(2));
+}
