@@ -247,7 +247,18 @@ pub fn run_solvus(args: &SolvusArgs) -> anyhow::Result<()> {
                 "critical point of the isotherm: Ab {:.4} Or {:.4} An {:.4}",
                 c.x_ab, c.x_or, c.x_an
             ),
+            None if iso.unresolved_band => {
+                println!(
+                    "a band was followed as far as the solver could go; its end was not located"
+                )
+            }
             None => println!("the two limbs do not meet at this temperature (no critical point)"),
+        }
+        if let Some(tri) = &iso.three_phase {
+            println!("three-phase triangle:");
+            for c in tri {
+                println!("  Ab {:.4} Or {:.4} An {:.4}", c.x_ab, c.x_or, c.x_an);
+            }
         }
     }
     Ok(())
@@ -261,6 +272,8 @@ fn isotherm_json(iso: &TernaryIsotherm) -> Value {
             "k_rich": composition_json(&t.k_rich),
         })).collect::<Vec<_>>(),
         "critical_point": iso.critical_point.as_ref().map(composition_json),
+        "three_phase": iso.three_phase.as_ref().map(|t| t.iter().map(composition_json).collect::<Vec<_>>()),
+        "unresolved_band": iso.unresolved_band,
     })
 }
 

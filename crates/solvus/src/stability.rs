@@ -195,33 +195,54 @@ const GRID_N: usize = 24;
 pub(crate) fn tpd_min_2d(at: &ModelAt, y0: [f64; 2], warm: Option<[f64; 2]>) -> (f64, [f64; 2]) {
     let (g0, r0, _) = at.reduced(y0);
     let tpd = |y: [f64; 2]| at.g_reduced(y) - g0 - r0[0] * (y[0] - y0[0]) - r0[1] * (y[1] - y0[1]);
-    let mut best_all = (f64::INFINITY, y0);
-    let mut best_far = (f64::INFINITY, y0);
     let denom = (GRID_N + 1) as f64;
+    let point = |i: usize, k: usize| {
+        [
+            (i as f64 + 1.0 / 3.0) / denom,
+            (k as f64 + 1.0 / 3.0) / denom,
+        ]
+    };
+    // values on the triangular grid, row i (X_Or index) of length GRID_N + 1 - i
+    let mut values = [[f64::INFINITY; GRID_N + 1]; GRID_N + 1];
     for i in 0..=GRID_N {
         for k in 0..=(GRID_N - i) {
-            let y = [
-                (i as f64 + 1.0 / 3.0) / denom,
-                (k as f64 + 1.0 / 3.0) / denom,
+            values[i][k] = tpd(point(i, k));
+        }
+    }
+    let value = |i: isize, k: isize| -> f64 {
+        if i < 0 || k < 0 || (i + k) as usize > GRID_N {
+            f64::INFINITY
+        } else {
+            values[i as usize][k as usize]
+        }
+    };
+    // every local minimum of the grid is a start (each basin of the tangent-plane distance)
+    let mut minima: Vec<(f64, [f64; 2])> = Vec::new();
+    for i in 0..=GRID_N {
+        for k in 0..=(GRID_N - i) {
+            let v = values[i][k];
+            let (ii, kk) = (i as isize, k as isize);
+            let neighbours = [
+                (ii + 1, kk),
+                (ii - 1, kk),
+                (ii, kk + 1),
+                (ii, kk - 1),
+                (ii + 1, kk - 1),
+                (ii - 1, kk + 1),
             ];
-            let d = tpd(y);
-            if d < best_all.0 {
-                best_all = (d, y);
-            }
-            let far = (y[0] - y0[0])
-                .abs()
-                .max((y[1] - y0[1]).abs())
-                .max(((1.0 - y[0] - y[1]) - (1.0 - y0[0] - y0[1])).abs());
-            if far > 0.05 && d < best_far.0 {
-                best_far = (d, y);
+            if neighbours.iter().all(|&(a, b)| v <= value(a, b)) {
+                minima.push((v, point(i, k)));
             }
         }
     }
-    let mut result = (0.0, y0);
-    let mut starts = vec![best_all.1, best_far.1];
+    minima.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let mut starts: Vec<[f64; 2]> = minima.iter().take(6).map(|m| m.1).collect();
+    // the corners, where a basin can be narrower than the grid spacing
+    starts.extend([[0.002, 0.002], [0.996, 0.002], [0.002, 0.996]]);
     if let Some(w) = warm {
         starts.push(w);
     }
+    let mut result = (0.0, y0);
     for s in starts {
         let (d, y) = local_min_2d(at, y0, g0, r0, s);
         if d < result.0 {

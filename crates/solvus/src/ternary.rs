@@ -22,7 +22,7 @@
 use serde::Serialize;
 
 use crate::SolvusError;
-use crate::binary::{binodal_on_join, spinodal_scan};
+use crate::binary::{binodal_on_join, spinodal_ab_or, spinodal_scan};
 use crate::model::{Composition, EdgeJoin, ModelAt, ModelKind, SolutionModel};
 use crate::numeric::{solve_n, solve2};
 use crate::stability::{TPD_TOLERANCE, tpd_min_2d};
@@ -54,6 +54,9 @@ pub struct TernaryIsotherm {
     /// Three coexisting phases, if the isotherm has a three-phase triangle (the tie-lines that
     /// would cross it are metastable and left out).
     pub three_phase: Option<[Composition; 3]>,
+    /// True if a band was followed until the solver could go no further without reaching an
+    /// edge or locating a critical point (its tie-lines are still valid equilibria).
+    pub unresolved_band: bool,
 }
 
 fn to_x(y: [f64; 2]) -> [f64; 3] {
@@ -161,15 +164,17 @@ fn critical_point_2d(at: &ModelAt, start: [f64; 2]) -> Option<[f64; 2]> {
     let eqs = |y: [f64; 2]| -> [f64; 2] {
         let (_, _, h) = at.reduced(y);
         let d = h[0][0] * h[1][1] - h[0][1] * h[1][0];
-        let e = 1e-6;
+        // difference steps shrink with the distance to an edge (ln X is singular there)
+        let e = 1e-6f64.min(0.01 * to_x(y).iter().copied().fold(1.0, f64::min));
         let d1 = (det([y[0] + e, y[1]]) - det([y[0] - e, y[1]])) / (2.0 * e);
         let d2 = (det([y[0], y[1] + e]) - det([y[0], y[1] - e])) / (2.0 * e);
         [d, h[0][0] * d2 - h[0][1] * d1]
     };
     let mut y = start;
+    let mut last_size = f64::INFINITY;
     for _ in 0..40 {
         let f = eqs(y);
-        let e = 1e-5;
+        let e = 1e-5f64.min(0.05 * to_x(y).iter().copied().fold(1.0, f64::min));
         let fa = eqs([y[0] + e, y[1]]);
         let fb = eqs([y[0] - e, y[1]]);
         let fc = eqs([y[0], y[1] + e]);
@@ -180,16 +185,24 @@ fn critical_point_2d(at: &ModelAt, start: [f64; 2]) -> Option<[f64; 2]> {
         ];
         let step = solve2(jac, [-f[0], -f[1]])?;
         let size = step[0].abs().max(step[1].abs());
-        let scale = (0.02 / size).min(1.0);
-        y = [y[0] + scale * step[0], y[1] + scale * step[1]];
-        if !to_x(y).iter().all(|&v| v > 0.0) {
-            return None;
+        let mut scale = (0.02 / size).min(1.0);
+        // stay inside the triangle (the critical point may lie very close to an edge)
+        let mut next = [y[0] + scale * step[0], y[1] + scale * step[1]];
+        while !to_x(next).iter().all(|&v| v > 0.0) {
+            scale *= 0.5;
+            if scale < 1e-12 {
+                return None;
+            }
+            next = [y[0] + scale * step[0], y[1] + scale * step[1]];
         }
-        if size < 1e-12 {
+        y = next;
+        last_size = size * scale;
+        if last_size < 1e-12 {
             return Some(y);
         }
     }
-    None
+    // finite-difference noise can keep the last steps above 1e-12; accept a settled answer
+    (last_size < 1e-8).then_some(y)
 }
 
 /// Which edge a composition (both tie-line ends) sits on, by the missing component.
@@ -208,6 +221,16 @@ type EdgePair = ([f64; 3], [f64; 3]);
 /// Tie-line ends on an edge, as full compositions.
 fn edge_tie_line(at: &ModelAt, from: usize, to: usize) -> Result<Option<EdgePair>, SolvusError> {
     let join = EdgeJoin { at: *at, from, to };
+    if (from, to) == (0, 1) {
+        // the Ab-Or edge in closed form: its gap can be far narrower than any scan near the
+        // binary critical temperature
+        let ab_or = at.ab_or_join();
+        let Some(sp) = spinodal_ab_or(&ab_or) else {
+            return Ok(None);
+        };
+        let (t1, t2, _) = binodal_on_join(&ab_or, sp, None)?;
+        return Ok(Some((join.point(t1), join.point(t2))));
+    }
     let Some(sp) = spinodal_scan(&join) else {
         return Ok(None);
     };
@@ -300,17 +323,17 @@ fn trace(
         if iters <= 3 {
             h = (h * 1.6).min(0.03);
         }
+        for (e, &(_, _, m)) in EDGES.iter().enumerate() {
+            if m != missing && missing_of(&z, m) < EDGE_EPS {
+                return (lines, None, Some(e));
+            }
+        }
         let len = ((z[0] - z[2]).powi(2) + (z[1] - z[3]).powi(2)).sqrt();
         if len < 0.03 {
             let mid = [0.5 * (z[0] + z[2]), 0.5 * (z[1] + z[3])];
             let cp = critical_point_2d(at, mid)
                 .filter(|c| ((c[0] - mid[0]).powi(2) + (c[1] - mid[1]).powi(2)).sqrt() < 0.05);
-            return (lines, Some(cp.unwrap_or(mid)), None);
-        }
-        for (e, &(_, _, m)) in EDGES.iter().enumerate() {
-            if m != missing && missing_of(&z, m) < EDGE_EPS {
-                return (lines, None, Some(e));
-            }
+            return (lines, cp, None);
         }
     }
     (lines, None, None)
@@ -342,6 +365,7 @@ pub fn ternary_isotherm(
     let mut candidates: Vec<(f64, [[f64; 2]; 3])> = Vec::new();
     let mut done = [false; 3];
     let mut band_index = 0;
+    let mut unresolved_band = false;
     for e in 0..3 {
         if done[e] {
             continue;
@@ -351,7 +375,21 @@ pub fn ternary_isotherm(
         let Some(edge) = edge_tie_line(&at, from, to)? else {
             continue;
         };
-        let (lines, cp, reached) = trace(&at, edge, missing);
+        let (lines, cp, mut reached) = trace(&at, edge, missing);
+        // A band that shrinks next to an edge which has its own gap at this temperature ends on
+        // that edge (below the edge's critical temperature the limbs do not meet).
+        let mut cp = cp;
+        if reached.is_none()
+            && let Some(z) = lines.last()
+        {
+            let (a, b) = (to_x([z[0], z[1]]), to_x([z[2], z[3]]));
+            for (r, &(f2, t2, m)) in EDGES.iter().enumerate() {
+                if r != e && a[m].max(b[m]) < 1e-3 && edge_tie_line(&at, f2, t2)?.is_some() {
+                    cp = None;
+                    reached = Some(r);
+                }
+            }
+        }
         // stability of each traced (interior) tie-line by the tangent-plane test at one end
         let mut stable: Vec<bool> = Vec::with_capacity(lines.len());
         let mut tests = Vec::with_capacity(lines.len());
@@ -390,6 +428,9 @@ pub fn ternary_isotherm(
         {
             critical_point = Some(Composition::from_array(to_x(c)));
         }
+        if cp.is_none() && reached.is_none() {
+            unresolved_band = true;
+        }
         for (a, b) in band {
             let (na, k) = if a[1] <= b[1] { (a, b) } else { (b, a) };
             tie_lines.push(TieLine {
@@ -414,6 +455,7 @@ pub fn ternary_isotherm(
         tie_lines,
         critical_point,
         three_phase,
+        unresolved_band,
     })
 }
 
@@ -584,6 +626,28 @@ mod tests {
                 }
             }
         }
+    }
+
+    #[test]
+    fn isotherm_near_the_binary_critical_temperature() {
+        // Source: continuity with the Ab-Or binary (design §3.3): 0.01 K below the binary
+        // critical temperature the gap reaches the Ab-Or join and the limbs do not meet inside
+        // the triangle; 0.1 K above it they meet at a critical point within 1e-3 of the join,
+        // close to the binary critical composition (tolerance 0.01 in X_Or).
+        let m = SolutionModel::builtin("eg1990").unwrap();
+        let c = crate::binary::critical_point(&m, 1000.0).unwrap();
+        let below = ternary_isotherm(&m, c.temperature_k - 0.01, 1000.0).unwrap();
+        assert!(below.critical_point.is_none() && !below.unresolved_band);
+        assert!(
+            below
+                .tie_lines
+                .iter()
+                .any(|t| t.na_rich.x_an == 0.0 && t.k_rich.x_an == 0.0)
+        );
+        let above = ternary_isotherm(&m, c.temperature_k + 0.1, 1000.0).unwrap();
+        let cp = above.critical_point.unwrap();
+        assert!(cp.x_an > 0.0 && cp.x_an < 1e-3, "{cp:?}");
+        assert!((cp.x_or - c.x_or).abs() < 0.01);
     }
 
     #[test]

@@ -68,3 +68,72 @@ proptest! {
         }
     }
 }
+
+fn ternary_model() -> impl Strategy<Value = SolutionModel> {
+    prop::sample::select(vec!["eg1990", "fl1988"])
+        .prop_map(|id| SolutionModel::builtin(id).unwrap())
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(24))]
+
+    #[test]
+    fn ternary_min_temperature_is_the_stability_limit(
+        model in ternary_model(),
+        x in interior_composition(),
+        p in 0.0f64..10_000.0,
+    ) {
+        // Source: the definition (design §3.4) with the tangent-plane criterion of Michelsen
+        // (1982): stable 0.05 C above the minimum temperature, unstable 0.05 C below; the other
+        // outcomes are consistent with the ends of the range.
+        use solvus::{MinTemperature, min_crystallisation_temperature, tangent_plane_stability};
+        let r = min_crystallisation_temperature(&model, &x, p).unwrap();
+        match r.outcome {
+            MinTemperature::Found { temperature_k, conjugate } => {
+                prop_assert!(temperature_k.is_finite());
+                let above = tangent_plane_stability(&model, &x, temperature_k + 0.05, p).unwrap();
+                let below = tangent_plane_stability(&model, &x, temperature_k - 0.05, p).unwrap();
+                prop_assert!(above.stable, "above {temperature_k}");
+                prop_assert!(!below.stable, "below {temperature_k}");
+                prop_assert!(conjugate.x_ab >= 0.0 && conjugate.x_or >= 0.0 && conjugate.x_an >= 0.0);
+            }
+            MinTemperature::StableInRange { t_min_k, .. } => {
+                prop_assert!(tangent_plane_stability(&model, &x, t_min_k, p).unwrap().stable);
+            }
+            MinTemperature::UnstableAtRangeTop { t_max_k } => {
+                prop_assert!(!tangent_plane_stability(&model, &x, t_max_k, p).unwrap().stable);
+            }
+            other => prop_assert!(false, "unexpected {other:?}"),
+        }
+    }
+
+    #[test]
+    fn ternary_isotherms_are_equilibria_everywhere(
+        model in ternary_model(),
+        t_c in 350.0f64..1300.0,
+        p in 0.0f64..10_000.0,
+    ) {
+        // Source: equilibrium condition mu_i(1) = mu_i(2) for every component of every
+        // reported tie-line, and three equal potentials at a three-phase triangle (any
+        // thermodynamics text). Tolerance 1e-6 J/mol.
+        use solvus::ternary_isotherm;
+        let t = t_c + 273.15;
+        let iso = ternary_isotherm(&model, t, p).unwrap();
+        prop_assert!(!iso.tie_lines.is_empty());
+        let at = model.at(t, p).unwrap();
+        for tl in &iso.tie_lines {
+            let (a, b) = (tl.na_rich, tl.k_rich);
+            let (ma, mb) = (at.chemical_potentials(&a), at.chemical_potentials(&b));
+            let (xa, xb) = (a.as_array(), b.as_array());
+            for i in 0..3 {
+                prop_assert!(xa[i].is_finite() && xb[i].is_finite());
+                if xa[i] > 0.0 && xb[i] > 0.0 {
+                    prop_assert!((ma[i] - mb[i]).abs() < 1e-6, "{tl:?}");
+                }
+            }
+        }
+        if let Some(c) = iso.critical_point {
+            prop_assert!(c.x_ab > 0.0 && c.x_or > 0.0 && c.x_an > 0.0);
+        }
+    }
+}
