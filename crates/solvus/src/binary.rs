@@ -311,6 +311,15 @@ pub(crate) fn binodal_on_join<J: Join>(
         if step <= 1e-13 * scale || (lam_hi - lam_lo) <= 1e-14 * scale {
             let x1 = branch_root(j, next, u1_lo, u1_hi, u1);
             let x2 = branch_root(j, next, u2_lo, u2_hi, u2);
+            if logit(x1) <= -U_LIMIT + 1e-6 || logit(x2) >= U_LIMIT - 1e-6 {
+                return Err(SolvusError::NotConverged {
+                    solver: "binodal (common tangent)",
+                    iterations: iter,
+                    detail: "a limb lies closer than 1e-15 to a pure end member; the \
+                             temperature is far below any usable range"
+                        .into(),
+                });
+            }
             return Ok((x1, x2, iter));
         }
         lambda = next;
@@ -714,6 +723,17 @@ mod tests {
                 BinodalOutcome::NoGap
             ));
         }
+    }
+
+    #[test]
+    fn far_too_cold_is_an_error_not_a_wrong_number() {
+        // Typed outcome instead of a silently clamped composition (RULES: never a silent value).
+        let model = SolutionModel::builtin("tw1969").unwrap();
+        assert!(matches!(
+            binodal(&model, 30.0, 1000.0),
+            Err(SolvusError::NotConverged { .. })
+        ));
+        assert!(binodal(&model, kelvin_from_celsius(200.0), 1000.0).is_ok());
     }
 
     #[test]
