@@ -115,13 +115,24 @@ fn null_vector(j: &[[f64; 4]; 3]) -> Option<[f64; 4]> {
     (n > 0.0 && n.is_finite()).then(|| t.map(|v| v / n))
 }
 
+/// Distance between the two ends of a tie-line in (X_Or, X_An).
+fn tie_length(z: &[f64; 4]) -> f64 {
+    ((z[0] - z[2]).powi(2) + (z[1] - z[3]).powi(2)).sqrt()
+}
+
 fn inside(z: &[f64; 4]) -> bool {
     to_x([z[0], z[1]]).iter().all(|&v| v > 0.0) && to_x([z[2], z[3]]).iter().all(|&v| v > 0.0)
 }
 
 /// Newton correction with one extra linear equation `row . z = value`.
-fn correct(at: &ModelAt, mut z: [f64; 4], row: [f64; 4], value: f64) -> Option<([f64; 4], usize)> {
-    for it in 1..=12 {
+fn correct(
+    at: &ModelAt,
+    mut z: [f64; 4],
+    row: [f64; 4],
+    value: f64,
+    max_iter: usize,
+) -> Option<([f64; 4], usize)> {
+    for it in 1..=max_iter {
         let (f, j) = system(at, &z);
         let c = row.iter().zip(z.iter()).map(|(a, b)| a * b).sum::<f64>() - value;
         let m = [j[0], j[1], j[2], row];
@@ -147,9 +158,14 @@ fn correct(at: &ModelAt, mut z: [f64; 4], row: [f64; 4], value: f64) -> Option<(
             return None;
         }
         let size = dz.iter().map(|v| v.abs()).fold(0.0, f64::max) * alpha;
-        if size < 1e-12 {
+        if size < 1e-9 {
+            // equal potentials to 1e-10 RT (about 1e-6 J/mol); near an edge round-off in
+            // RT ln X keeps the last Newton steps from shrinking further
             let (f, _) = system(at, &z);
-            return (f.iter().all(|v| v.abs() < 1e-7)).then_some((z, it));
+            let balanced = f.iter().all(|v| v.abs() < 1e-10 * at.rt);
+            if balanced || size < 1e-13 {
+                return balanced.then_some((z, it));
+            }
         }
     }
     None
@@ -161,48 +177,67 @@ fn critical_point_2d(at: &ModelAt, start: [f64; 2]) -> Option<[f64; 2]> {
         let (_, _, h) = at.reduced(y);
         h[0][0] * h[1][1] - h[0][1] * h[1][0]
     };
-    let eqs = |y: [f64; 2]| -> [f64; 2] {
+    let inside = |y: [f64; 2]| to_x(y).iter().all(|&v| v > 0.0);
+    // Gibbs' criteria, each divided by a scale of its terms so that both are O(1)
+    let eqs = |y: [f64; 2]| -> Option<[f64; 2]> {
         let (_, _, h) = at.reduced(y);
         let d = h[0][0] * h[1][1] - h[0][1] * h[1][0];
         // difference steps shrink with the distance to an edge (ln X is singular there)
         let e = 1e-6f64.min(0.01 * to_x(y).iter().copied().fold(1.0, f64::min));
         let d1 = (det([y[0] + e, y[1]]) - det([y[0] - e, y[1]])) / (2.0 * e);
         let d2 = (det([y[0], y[1] + e]) - det([y[0], y[1] - e])) / (2.0 * e);
-        [d, h[0][0] * d2 - h[0][1] * d1]
+        let m = h[0][0] * d2 - h[0][1] * d1;
+        let m_scale = (h[0][0] * d2).abs() + (h[0][1] * d1).abs();
+        let d_scale = (h[0][0] * h[1][1]).abs() + (h[0][1] * h[1][0]).abs();
+        let f = [d / d_scale, m / m_scale];
+        (f[0].is_finite() && f[1].is_finite()).then_some(f)
     };
+    let norm = |f: [f64; 2]| f[0].abs().max(f[1].abs());
     let mut y = start;
-    let mut last_size = f64::INFINITY;
-    for _ in 0..40 {
-        let f = eqs(y);
+    let mut f = eqs(y)?;
+    for _ in 0..60 {
+        if norm(f) < 1e-10 {
+            return Some(y);
+        }
         let e = 1e-5f64.min(0.05 * to_x(y).iter().copied().fold(1.0, f64::min));
-        let fa = eqs([y[0] + e, y[1]]);
-        let fb = eqs([y[0] - e, y[1]]);
-        let fc = eqs([y[0], y[1] + e]);
-        let fd = eqs([y[0], y[1] - e]);
+        let fa = eqs([y[0] + e, y[1]])?;
+        let fb = eqs([y[0] - e, y[1]])?;
+        let fc = eqs([y[0], y[1] + e])?;
+        let fd = eqs([y[0], y[1] - e])?;
         let jac = [
             [(fa[0] - fb[0]) / (2.0 * e), (fc[0] - fd[0]) / (2.0 * e)],
             [(fa[1] - fb[1]) / (2.0 * e), (fc[1] - fd[1]) / (2.0 * e)],
         ];
-        let step = solve2(jac, [-f[0], -f[1]])?;
+        let Some(step) = solve2(jac, [-f[0], -f[1]]) else {
+            return (norm(f) < 1e-6).then_some(y);
+        };
         let size = step[0].abs().max(step[1].abs());
+        // at most 0.02 per step, inside the triangle, and the residual must go down
         let mut scale = (0.02 / size).min(1.0);
-        // stay inside the triangle (the critical point may lie very close to an edge)
-        let mut next = [y[0] + scale * step[0], y[1] + scale * step[1]];
-        while !to_x(next).iter().all(|&v| v > 0.0) {
-            scale *= 0.5;
-            if scale < 1e-12 {
-                return None;
+        let mut accepted = None;
+        while scale > 1e-10 {
+            let next = [y[0] + scale * step[0], y[1] + scale * step[1]];
+            if inside(next)
+                && let Some(fnext) = eqs(next)
+                && norm(fnext) < norm(f)
+            {
+                accepted = Some((next, fnext));
+                break;
             }
-            next = [y[0] + scale * step[0], y[1] + scale * step[1]];
+            scale *= 0.5;
         }
+        let Some((next, fnext)) = accepted else {
+            // no further decrease: finite-difference noise has been reached
+            return (norm(f) < 1e-6).then_some(y);
+        };
+        let moved = size * scale;
         y = next;
-        last_size = size * scale;
-        if last_size < 1e-12 {
-            return Some(y);
+        f = fnext;
+        if moved < 1e-13 {
+            break;
         }
     }
-    // finite-difference noise can keep the last steps above 1e-12; accept a settled answer
-    (last_size < 1e-8).then_some(y)
+    (norm(f) < 1e-6).then_some(y)
 }
 
 /// Which edge a composition (both tie-line ends) sits on, by the missing component.
@@ -247,14 +282,29 @@ fn trace(
 ) -> (Vec<[f64; 4]>, Option<[f64; 2]>, Option<usize>) {
     let mut lines = Vec::new();
     // step onto the interior: hold the missing component of end 1 at a small value
-    let eps = 1e-5;
+    let eps = 1e-4;
     let lift = |x: [f64; 3]| {
         let mut v = x;
         v[missing] = eps;
         let s: f64 = v.iter().sum();
         [v[1] / s, v[2] / s]
     };
-    let (a, b) = (lift(start.0), lift(start.1));
+    // the second end gets the amount that equalises the missing component's potential in the
+    // dilute limit (Henry's law partitioning), so Newton starts next to the solution
+    let mu_missing = |x: [f64; 3]| {
+        let mut v = x;
+        v[missing] = eps;
+        let s: f64 = v.iter().sum();
+        at.mu(&v.map(|c| c / s))[missing]
+    };
+    let ratio = ((mu_missing(start.0) - mu_missing(start.1)) / at.rt).exp();
+    let lift2 = |x: [f64; 3]| {
+        let mut v = x;
+        v[missing] = (eps * ratio).clamp(1e-9, 0.1);
+        let s: f64 = v.iter().sum();
+        [v[1] / s, v[2] / s]
+    };
+    let (a, b) = (lift(start.0), lift2(start.1));
     let z0 = [a[0], a[1], b[0], b[1]];
     // row for x_missing of end 1 (in reduced coordinates)
     let row = match missing {
@@ -263,7 +313,7 @@ fn trace(
         _ => [0.0, 1.0, 0.0, 0.0],
     };
     let value = if missing == 0 { eps - 1.0 } else { eps };
-    let Some((mut z, _)) = correct(at, z0, row, value) else {
+    let Some((mut z, _)) = correct(at, z0, row, value, 40) else {
         return (lines, None, None);
     };
     lines.push(z);
@@ -295,10 +345,12 @@ fn trace(
             let mut row_k = [0.0; 4];
             row_k[k] = 1.0;
             if inside(&zp)
-                && let Some((zn, iters)) = correct(at, zp, row_k, zp[k])
+                && let Some((zn, iters)) = correct(at, zp, row_k, zp[k], 12)
             {
                 let moved = (0..4).map(|q| (zn[q] - z[q]).powi(2)).sum::<f64>().sqrt();
-                if moved < 3.0 * h {
+                // never accept a collapse onto the trivial solution (both ends equal)
+                let collapsed = tie_length(&zn) < 1e-4 || tie_length(&zn) < 0.25 * tie_length(&z);
+                if moved < 3.0 * h && !collapsed {
                     accepted = Some((zn, iters));
                     break;
                 }
@@ -308,7 +360,7 @@ fn trace(
         let Some((zn, iters)) = accepted else {
             // Stalled: close to the critical point the trivial solution (equal ends) makes the
             // equations singular; finish with the critical-point solve if the tie-line is short.
-            let len = ((z[0] - z[2]).powi(2) + (z[1] - z[3]).powi(2)).sqrt();
+            let len = tie_length(&z);
             if len < 0.1 {
                 let mid = [0.5 * (z[0] + z[2]), 0.5 * (z[1] + z[3])];
                 let cp = critical_point_2d(at, mid)
@@ -328,7 +380,7 @@ fn trace(
                 return (lines, None, Some(e));
             }
         }
-        let len = ((z[0] - z[2]).powi(2) + (z[1] - z[3]).powi(2)).sqrt();
+        let len = tie_length(&z);
         if len < 0.03 {
             let mid = [0.5 * (z[0] + z[2]), 0.5 * (z[1] + z[3])];
             let cp = critical_point_2d(at, mid)
