@@ -120,6 +120,7 @@ proptest! {
         let t = t_c + 273.15;
         let iso = ternary_isotherm(&model, t, p).unwrap();
         prop_assert!(!iso.tie_lines.is_empty());
+        prop_assert!(!iso.unresolved_band, "a band was left unresolved");
         let at = model.at(t, p).unwrap();
         for tl in &iso.tie_lines {
             let (a, b) = (tl.na_rich, tl.k_rich);
