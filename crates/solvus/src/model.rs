@@ -617,6 +617,22 @@ pub(crate) fn check_pressure(pressure_bar: f64) -> Result<(), SolvusError> {
     Ok(())
 }
 
+/// The seven polynomials multiplying the Margules parameters in `G_ex`, at `x`.
+pub(crate) fn excess_basis(x: &[f64; 3]) -> [f64; 7] {
+    let mut b = [0.0; 7];
+    for (bk, &(i, j, k)) in b.iter_mut().zip(PAIRS.iter()) {
+        *bk = x[i] * x[j] * (x[j] + 0.5 * x[k]);
+    }
+    b[6] = x[0] * x[1] * x[2];
+    b
+}
+
+/// `sum_i X_i ln a_i^ideal` (dimensionless), zero terms for absent components.
+pub(crate) fn ideal_entropy_term(ideal: IdealMixing, x: &[f64; 3]) -> f64 {
+    let a = ideal_activities(ideal, x);
+    x_ln(x[0], a[0]) + x_ln(x[1], a[1]) + x_ln(x[2], a[2])
+}
+
 /// Excess polynomial value for Margules values `w` (internal order).
 fn excess_value(w: &[f64; 7], x: &[f64; 3]) -> f64 {
     let mut g = 0.0;
@@ -821,6 +837,7 @@ impl ModelAt {
     }
 
     /// G only, reduced coordinates.
+    #[cfg(test)]
     pub(crate) fn g_reduced(&self, y: [f64; 2]) -> f64 {
         self.g(&[1.0 - y[0] - y[1], y[0], y[1]])
     }

@@ -16,7 +16,12 @@ use serde::Serialize;
 
 use crate::SolvusError;
 use crate::binary::limb_temperature;
-use crate::model::{Composition, EdgeJoin, Join, ModelAt, ModelKind, SolutionModel};
+use std::sync::OnceLock;
+
+use crate::model::{
+    Composition, EdgeJoin, IdealMixing, Join, ModelAt, ModelKind, SolutionModel, excess_basis,
+    ideal_entropy_term,
+};
 use crate::numeric::solve2;
 
 /// Result of a tangent-plane stability test.
@@ -144,7 +149,15 @@ fn stability_at(
             (d, Composition::from_array(join.point(t)))
         }
         Geometry::Interior(y0) => {
-            let (d, y) = tpd_min_2d(at, y0, warm);
+            // a negative distance from the previous incipient phase already proves instability
+            let quick = warm.map(|w| {
+                let (g0, r0, _) = at.reduced(y0);
+                local_min_2d(at, y0, g0, r0, w)
+            });
+            let (d, y) = match quick {
+                Some((d, y)) if d < -tol => (d, y),
+                _ => tpd_min_2d(at, y0, warm),
+            };
             (d, Composition::from_array([1.0 - y[0] - y[1], y[0], y[1]]))
         }
     };
@@ -191,24 +204,67 @@ fn tpd_min_join<J: Join>(j: &J, x0: f64) -> (f64, f64) {
 /// Grid subdivisions for the ternary stability test.
 const GRID_N: usize = 24;
 
+/// The triangular grid with the parts of G that do not depend on T or P.
+struct GridTable {
+    y: Vec<[f64; 2]>,
+    index: Vec<(usize, usize)>,
+    position: Vec<Vec<usize>>,
+    ideal: Vec<f64>,
+    basis: Vec<[f64; 7]>,
+}
+
+fn build_grid_table(ideal: IdealMixing) -> GridTable {
+    let denom = (GRID_N + 1) as f64;
+    let mut t = GridTable {
+        y: Vec::new(),
+        index: Vec::new(),
+        position: vec![vec![0; GRID_N + 1]; GRID_N + 1],
+        ideal: Vec::new(),
+        basis: Vec::new(),
+    };
+    for i in 0..=GRID_N {
+        for k in 0..=(GRID_N - i) {
+            let y = [
+                (i as f64 + 1.0 / 3.0) / denom,
+                (k as f64 + 1.0 / 3.0) / denom,
+            ];
+            let x = [1.0 - y[0] - y[1], y[0], y[1]];
+            t.position[i][k] = t.y.len();
+            t.y.push(y);
+            t.index.push((i, k));
+            t.ideal.push(ideal_entropy_term(ideal, &x));
+            t.basis.push(excess_basis(&x));
+        }
+    }
+    t
+}
+
+fn grid_table(ideal: IdealMixing) -> &'static GridTable {
+    static MOLECULAR: OnceLock<GridTable> = OnceLock::new();
+    static AL_AVOIDANCE: OnceLock<GridTable> = OnceLock::new();
+    match ideal {
+        IdealMixing::Molecular => MOLECULAR.get_or_init(|| build_grid_table(ideal)),
+        IdealMixing::AlAvoidance => AL_AVOIDANCE.get_or_init(|| build_grid_table(ideal)),
+    }
+}
+
 /// Minimum of the tangent-plane distance over the triangle, from interior point `y0`.
 pub(crate) fn tpd_min_2d(at: &ModelAt, y0: [f64; 2], warm: Option<[f64; 2]>) -> (f64, [f64; 2]) {
     let (g0, r0, _) = at.reduced(y0);
-    let tpd = |y: [f64; 2]| at.g_reduced(y) - g0 - r0[0] * (y[0] - y0[0]) - r0[1] * (y[1] - y0[1]);
-    let denom = (GRID_N + 1) as f64;
-    let point = |i: usize, k: usize| {
-        [
-            (i as f64 + 1.0 / 3.0) / denom,
-            (k as f64 + 1.0 / 3.0) / denom,
-        ]
-    };
-    // values on the triangular grid, row i (X_Or index) of length GRID_N + 1 - i
+    // G on the grid from a table of the temperature-independent parts (ideal term and the
+    // seven excess polynomials), built once per ideal-mixing choice
+    let table = grid_table(at.ideal);
     let mut values = [[f64::INFINITY; GRID_N + 1]; GRID_N + 1];
-    for i in 0..=GRID_N {
-        for k in 0..=(GRID_N - i) {
-            values[i][k] = tpd(point(i, k));
+    for (n, &(i, k)) in table.index.iter().enumerate() {
+        let y = table.y[n];
+        let b = &table.basis[n];
+        let mut g = at.rt * table.ideal[n];
+        for (wk, bk) in at.w.iter().zip(b.iter()) {
+            g += wk * bk;
         }
+        values[i][k] = g - g0 - r0[0] * (y[0] - y0[0]) - r0[1] * (y[1] - y0[1]);
     }
+    let point = |i: usize, k: usize| table.y[table.position[i][k]];
     let value = |i: isize, k: isize| -> f64 {
         if i < 0 || k < 0 || (i + k) as usize > GRID_N {
             f64::INFINITY
