@@ -142,7 +142,8 @@ pub fn critical_point(
 }
 
 fn critical_point_linear(lin: &LinearJoin) -> Option<CriticalPoint> {
-    const N: usize = 200;
+    // a coarse scan brackets the maximum of the spinodal temperature; Brent refines it
+    const N: usize = 64;
     let xs: Vec<f64> = (0..=N)
         .map(|i| (i as f64 + 0.5) / (N as f64 + 1.0))
         .collect();
@@ -167,8 +168,9 @@ fn critical_point_linear(lin: &LinearJoin) -> Option<CriticalPoint> {
 }
 
 /// Spinodal compositions `(x1, x2)` of the Ab-Or join, or `None` above the critical temperature.
-pub(crate) fn spinodal_ab_or(j: &AbOrJoin) -> Option<(f64, f64)> {
-    // p(x) = x(1-x) G''(x) = RT + x(1-x)(a + b x)
+/// The minimum of `p(x) = x(1-x) G''(x)` on the Ab-Or join, if it is negative (a gap exists):
+/// `(x_min, a, b)` with `p(x) = RT + x(1-x)(a + b x)`.
+fn cubic_minimum(j: &AbOrJoin) -> Option<(f64, f64, f64)> {
     let a = 2.0 * j.wa - 4.0 * j.wb;
     let b = 6.0 * (j.wb - j.wa);
     let p = |x: f64| j.rt + x * (1.0 - x) * (a + b * x);
@@ -192,11 +194,41 @@ pub(crate) fn spinodal_ab_or(j: &AbOrJoin) -> Option<(f64, f64)> {
             .into_iter()
             .find(|&x| x > 0.0 && x < 1.0 && is_min(x))?
     };
-    if p(x_min) >= 0.0 {
-        return None;
-    }
-    let x1 = brent(p, 0.0, x_min, 1e-16, 200)?;
-    let x2 = brent(p, x_min, 1.0, 1e-16, 200)?;
+    (p(x_min) < 0.0).then_some((x_min, a, b))
+}
+
+pub(crate) fn spinodal_ab_or(j: &AbOrJoin) -> Option<(f64, f64)> {
+    let (x_min, a, b) = cubic_minimum(j)?;
+    let p = |x: f64| j.rt + x * (1.0 - x) * (a + b * x);
+    let dp = |x: f64| a + (2.0 * b - 2.0 * a) * x - 3.0 * b * x * x;
+    // Newton's method safeguarded by bisection on each side of the minimum (p(0) = p(1) = RT > 0)
+    let root = |mut lo: f64, mut hi: f64, start: f64| -> f64 {
+        let positive_at_lo = p(lo) > 0.0;
+        let mut x = start;
+        for _ in 0..100 {
+            let v = p(x);
+            if (v > 0.0) == positive_at_lo {
+                lo = x;
+            } else {
+                hi = x;
+            }
+            let d = dp(x);
+            let mut next = if d != 0.0 { x - v / d } else { f64::NAN };
+            if !(next > lo.min(hi) && next < lo.max(hi)) {
+                next = 0.5 * (lo + hi);
+            }
+            if (next - x).abs() <= 1e-16 * (1.0 + x.abs()) || (hi - lo).abs() < 1e-16 {
+                return next;
+            }
+            x = next;
+        }
+        x
+    };
+    // quadratic estimate of the half-width around the minimum as the start
+    let curv = (2.0 * b - 2.0 * a) - 6.0 * b * x_min;
+    let half = (-2.0 * p(x_min) / curv.max(1e-300)).sqrt();
+    let x1 = root(0.0, x_min, (x_min - half).clamp(0.5 * x_min, x_min));
+    let x2 = root(1.0, x_min, (x_min + half).clamp(x_min, 0.5 * (1.0 + x_min)));
     Some((x1, x2))
 }
 
@@ -493,6 +525,26 @@ pub fn solvus_curve(
     })
 }
 
+/// Binodal limbs only (no spinodal reported): the warm-started Newton result is validated by
+/// `G'' > 0` at both ends on either side of the minimum of `x(1-x) G''`, and the bracketed
+/// solver is used otherwise.
+fn limbs_join(j: &AbOrJoin, warm: Option<(f64, f64)>) -> Result<Option<(f64, f64)>, SolvusError> {
+    let Some((x_min, _, _)) = cubic_minimum(j) else {
+        return Ok(None);
+    };
+    if let Some(w) = warm
+        && let Some((x1, x2)) = binodal_newton(j, (x_min, x_min), w)
+        && j.g12(x1).1 > 0.0
+        && j.g12(x2).1 > 0.0
+    {
+        return Ok(Some((x1, x2)));
+    }
+    match binodal_join(j, warm)? {
+        BinodalOutcome::Gap(p) => Ok(Some((p.x_or_na_limb, p.x_or_k_limb))),
+        BinodalOutcome::NoGap => Ok(None),
+    }
+}
+
 /// Temperature at which an Ab-Or composition lies on a binodal limb (the highest T at which it
 /// is not stable as one phase). `None` if it stays outside the gap down to `t_lo_k`.
 pub(crate) fn limb_temperature(
@@ -515,16 +567,12 @@ pub(crate) fn limb_temperature(
         if t >= critical.temperature_k {
             return (x_c - x_or).abs();
         }
-        match binodal_join(&lin.join(t), warm.get()) {
-            Ok(BinodalOutcome::Gap(p)) => {
-                warm.set(Some((p.x_or_na_limb, p.x_or_k_limb)));
-                if na_side {
-                    p.x_or_na_limb - x_or
-                } else {
-                    x_or - p.x_or_k_limb
-                }
+        match limbs_join(&lin.join(t), warm.get()) {
+            Ok(Some((na, k))) => {
+                warm.set(Some((na, k)));
+                if na_side { na - x_or } else { x_or - k }
             }
-            Ok(BinodalOutcome::NoGap) => (x_c - x_or).abs(),
+            Ok(None) => (x_c - x_or).abs(),
             Err(e) => {
                 *failure.borrow_mut() = Some(e);
                 f64::NAN
@@ -551,15 +599,15 @@ pub(crate) fn limb_temperature(
         detail: format!("X_Or {x_or}"),
     })?;
     // conjugate composition at that temperature
-    let conj = match binodal_join(&lin.join(t), warm.get())? {
-        BinodalOutcome::Gap(p) => {
+    let conj = match limbs_join(&lin.join(t), warm.get())? {
+        Some((na, k)) => {
             if na_side {
-                p.x_or_k_limb
+                k
             } else {
-                p.x_or_na_limb
+                na
             }
         }
-        BinodalOutcome::NoGap => x_c,
+        None => x_c,
     };
     Ok(Some((t, conj)))
 }
