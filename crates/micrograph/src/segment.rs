@@ -1064,6 +1064,51 @@ mod tests {
     }
 
     #[test]
+    fn core_histograms_match_imageproc_chessboard_distance() {
+        // Source: imageproc 0.27 `distance_transform(.., Norm::LInf)` thresholded at d on the
+        // same class map; the core pixel counts per grey value must be identical.
+        let spec = SyntheticSpec {
+            width: 90,
+            height: 70,
+            ..SyntheticSpec::default()
+        };
+        let plane = spec.generate().plane(90, 70, false).unwrap();
+        let cm: Vec<u8> = plane
+            .data
+            .iter()
+            .enumerate()
+            .map(|(i, &v)| {
+                if i % 131 == 0 {
+                    NOT_MEASURED
+                } else {
+                    u8::from(v > 140)
+                }
+            })
+            .collect();
+        for d in [1u8, 2, 3, 4] {
+            let ours = core_histograms(&plane, &cm, 2, d).unwrap();
+            for c in 0..2u8 {
+                let fg: Vec<u8> = cm.iter().map(|&k| u8::from(k != c)).collect();
+                let dist = imageproc::distance_transform::distance_transform(
+                    &mask_image(90, 70, fg).unwrap(),
+                    Norm::LInf,
+                );
+                let mut counts = vec![0u64; 256];
+                for (&dv, &g) in dist.as_raw().iter().zip(&plane.data) {
+                    if dv >= d {
+                        counts[usize::from(g)] += 1;
+                    }
+                }
+                assert_eq!(
+                    ours[usize::from(c)].counts(),
+                    &counts[..],
+                    "class {c}, d {d}"
+                );
+            }
+        }
+    }
+
+    #[test]
     fn cancel_flag_stops_the_job() {
         let plane = SyntheticSpec {
             width: 32,
