@@ -60,7 +60,7 @@ fn main() {
     let _ = micrograph::segment::tile_and_class_stats(&plane, &cm, 2, 512);
     println!("tiles           {:8.3} s", t.elapsed().as_secs_f64());
     let t = Instant::now();
-    let _ = micrograph::segment::core_histograms(&plane, &cm, 2, 3).unwrap();
+    let _ = micrograph::segment::core_histograms(&plane, &cm, 2, 3, 4).unwrap();
     println!("core hists      {:8.3} s", t.elapsed().as_secs_f64());
     let t = Instant::now();
     let _ = micrograph::bootstrap::fraction_ci95(&seg.tiles, 2, 1000, 1);

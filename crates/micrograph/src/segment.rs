@@ -634,16 +634,17 @@ fn remove_small_features_bounded(
                 }
                 let x = i - y * w;
                 let same = if x > 0 && x + 1 < w && y > 0 && y + 1 < h {
-                    // Interior: direct indexing (the common case).
+                    // Interior: direct indexing, stopping once enough neighbours agree (the
+                    // common case inside a phase: left, right and up already suffice).
                     let (up, dn) = (i - w, i + w);
-                    usize::from(src[up - 1] == c)
-                        + usize::from(src[up] == c)
-                        + usize::from(src[up + 1] == c)
-                        + usize::from(src[i - 1] == c)
-                        + usize::from(src[i + 1] == c)
-                        + usize::from(src[dn - 1] == c)
-                        + usize::from(src[dn] == c)
-                        + usize::from(src[dn + 1] == c)
+                    let mut n = 0;
+                    for j in [i - 1, i + 1, up, dn, up - 1, up + 1, dn - 1, dn + 1] {
+                        n += usize::from(src[j] == c);
+                        if n + 1 >= min_px {
+                            break;
+                        }
+                    }
+                    n
                 } else {
                     neighbours8(i).filter(|&j| src[j] == c).count()
                 };
@@ -799,43 +800,77 @@ pub fn core_histograms(
     class_map: &[u8],
     classes: usize,
     d: u8,
+    bin_shift: u32,
 ) -> Result<Vec<Histogram>> {
     let (w, h) = (plane.width as usize, plane.height as usize);
     let r = usize::from(d.max(1) - 1);
-    // Row pass: the class when the whole horizontal window has it, else NOT_MEASURED.
+    // Row pass: the class when the whole horizontal window has it, else NOT_MEASURED; by runs,
+    // so each pixel is looked at once.
     let mut rowok = vec![NOT_MEASURED; w * h];
     rowok
         .par_chunks_mut(w)
         .zip(class_map.par_chunks(w))
+        .with_min_len(64)
         .for_each(|(out, row)| {
-            for x in 0..w {
-                let c = row[x];
-                if c == NOT_MEASURED || usize::from(c) >= classes {
-                    continue;
+            let mut a = 0;
+            while a < w {
+                let c = row[a];
+                let mut b = a + 1;
+                while b < w && row[b] == c {
+                    b += 1;
                 }
-                let lo = x.saturating_sub(r);
-                let hi = (x + r + 1).min(w);
-                if row[lo..hi].iter().all(|&k| k == c) {
-                    out[x] = c;
+                if c != NOT_MEASURED && usize::from(c) < classes {
+                    // x needs max(0, x - r) >= a and min(w, x + r + 1) <= b.
+                    let lo = if a == 0 { 0 } else { a + r };
+                    let hi = if b == w { w } else { b.saturating_sub(r) };
+                    for o in out.iter_mut().take(hi).skip(lo) {
+                        *o = c;
+                    }
                 }
+                a = b;
             }
         });
-    let nbins = usize::from(plane.max_value) + 1;
-    let counts = (0..h)
+    // Column pass over strips of columns: the length of the vertical run of equal `rowok`
+    // values ending at each row tells whether a pixel's vertical window is all one class.
+    let bin_shift = bin_shift.min(15);
+    let nbins = (usize::from(plane.max_value) >> bin_shift) + 1;
+    let strip = 256usize;
+    let counts = (0..w.div_ceil(strip))
         .into_par_iter()
-        .with_min_len(256)
         .fold(
             || vec![0u64; nbins * classes],
-            |mut acc, y| {
-                let lo = y.saturating_sub(r);
-                let hi = (y + r + 1).min(h);
-                for x in 0..w {
-                    let c = rowok[y * w + x];
-                    if c == NOT_MEASURED {
+            |mut acc, sx| {
+                let x0 = sx * strip;
+                let x1 = (x0 + strip).min(w);
+                let mut run = vec![0usize; x1 - x0];
+                for y in 0..h + r {
+                    if y < h {
+                        for x in x0..x1 {
+                            let v = rowok[y * w + x];
+                            run[x - x0] = if v == NOT_MEASURED {
+                                0
+                            } else if y > 0 && rowok[(y - 1) * w + x] == v {
+                                run[x - x0] + 1
+                            } else {
+                                1
+                            };
+                        }
+                    }
+                    if y < r {
                         continue;
                     }
-                    if (lo..hi).all(|yy| rowok[yy * w + x] == c) {
-                        acc[usize::from(c) * nbins + usize::from(plane.data[y * w + x])] += 1;
+                    let yy = y - r;
+                    if yy >= h {
+                        break;
+                    }
+                    let yb = (yy + r).min(h - 1);
+                    let need = yb - yy.saturating_sub(r) + 1;
+                    for x in x0..x1 {
+                        if run[x - x0] >= need {
+                            let c = rowok[yy * w + x];
+                            acc[usize::from(c) * nbins
+                                + (usize::from(plane.data[yy * w + x]) >> bin_shift)] += 1;
+                        }
                     }
                 }
                 acc
@@ -850,7 +885,7 @@ pub fn core_histograms(
         );
     counts
         .chunks(nbins)
-        .map(|c| Histogram::from_counts(c.to_vec(), 0, plane.max_value))
+        .map(|c| Histogram::from_counts(c.to_vec(), bin_shift, plane.max_value))
         .collect()
 }
 
@@ -928,7 +963,9 @@ fn unmix(
 ) -> Result<Option<Unmixing>> {
     let mut pure = [0.0f64; 2];
     let mut core_pixels = [0u64; 2];
-    let core_hists = core_histograms(plane, class_map, 2, s.core_distance_px)?;
+    // 16-bit levels binned by 16 (0.02% of full scale) keep the tables in cache.
+    let shift = if plane.max_value > 255 { 4 } else { 0 };
+    let core_hists = core_histograms(plane, class_map, 2, s.core_distance_px, shift)?;
     for (c, ch) in core_hists.iter().enumerate() {
         core_pixels[c] = ch.total();
         match ch.quantile(0.5) {
@@ -1086,7 +1123,7 @@ mod tests {
             })
             .collect();
         for d in [1u8, 2, 3, 4] {
-            let ours = core_histograms(&plane, &cm, 2, d).unwrap();
+            let ours = core_histograms(&plane, &cm, 2, d, 0).unwrap();
             for c in 0..2u8 {
                 let fg: Vec<u8> = cm.iter().map(|&k| u8::from(k != c)).collect();
                 let dist = imageproc::distance_transform::distance_transform(
