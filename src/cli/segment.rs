@@ -52,6 +52,9 @@ pub struct SegmentArgs {
     /// Features smaller than this many pixels are merged into their surroundings.
     #[arg(long, default_value_t = 4)]
     pub min_feature_px: u32,
+    /// Opening then closing of the brighter phase (two phases), square radius in px.
+    #[arg(long, default_value_t = 0)]
+    pub open_close_px: u8,
     /// Flatten illumination with a polynomial of this degree (1 or 2) before classification.
     #[arg(long)]
     pub flatten: Option<u8>,
@@ -154,6 +157,7 @@ pub fn run(args: &SegmentArgs) -> anyhow::Result<()> {
         voids,
         rim_px: args.rim_px,
         min_feature_px: args.min_feature_px,
+        open_close_px: args.open_close_px,
         pixel_size,
         ..SegmentSettings::default()
     };
