@@ -12,8 +12,10 @@ both tools. Each job runs in its own child process; wall time and peak resident 
 (ru_maxrss of that child) are measured around it, and the ratios printed.
 
 The scikit-image job, step for step what `consolute segment` does (whole region, no flattening):
-read the TIFF; histogram of the region; voids = darkest class of a 3-class multi-Otsu (the
-consolute default finds voids from the histogram likewise) dilated by a disc of radius 2;
+read the TIFF; voids = pixels at or below the void level consolute reported (consolute finds
+small voids with a dark-tail test on the histogram that scikit-image has no function for; a
+3-class multi-Otsu, used when consolute reports no void level, would split a phase instead of
+finding a few thousand void pixels), dilated by a disc of radius 2;
 2-class Otsu on the measured pixels; classification; labelling (8-connected, per class) and
 merging of features under 4 px into the neighbouring class; fractions by counting.
 scikit-image's `threshold_multiotsu` uses its default 256 bins (its exhaustive search is
@@ -31,7 +33,7 @@ import time
 ROOT = os.path.abspath(os.path.join(os.path.dirname(__file__), "..", ".."))
 
 
-def skimage_job(path):
+def skimage_job(path, void_level):
     import numpy as np
     import tifffile
     from skimage.filters import threshold_multiotsu, threshold_otsu
@@ -41,10 +43,11 @@ def skimage_job(path):
     t0 = time.perf_counter()
     img = tifffile.imread(path)
     region = np.ones(img.shape, dtype=bool)
-    vals = img[region]
-    void_t = threshold_multiotsu(vals, classes=3)[0]
-    del vals
-    voids = region & (img <= void_t)
+    if void_level is None:
+        vals = img[region]
+        void_level = threshold_multiotsu(vals, classes=3)[0]
+        del vals
+    voids = region & (img <= void_level)
     measured = region & ~binary_dilation(voids, disk(2))
     del voids
     level = threshold_otsu(img[measured])
@@ -91,9 +94,10 @@ def main():
     ap.add_argument("--consolute", default=os.path.join(ROOT, "target", "release", "consolute"))
     ap.add_argument("--image", default=None)
     ap.add_argument("--skimage-job", default=None, help=argparse.SUPPRESS)
+    ap.add_argument("--void-level", type=int, default=None, help=argparse.SUPPRESS)
     a = ap.parse_args()
     if a.skimage_job:
-        skimage_job(a.skimage_job)
+        skimage_job(a.skimage_job, a.void_level)
         return
     import skimage
     image = a.image or os.path.join("/tmp", f"consolute_synthetic_{a.size}.tif")
@@ -102,7 +106,10 @@ def main():
                         "synthetic_image", "--", image, str(a.size), "16"], check=True, cwd=ROOT)
     rust_t, rust_mb, rust_out = measure([a.consolute, "segment", image, "--json"])
     rust = json.loads(rust_out)
-    sk_t, sk_mb, sk_out = measure([sys.executable, os.path.abspath(__file__), "--skimage-job", image])
+    sk_cmd = [sys.executable, os.path.abspath(__file__), "--skimage-job", image]
+    if rust.get("void_level") is not None:
+        sk_cmd += ["--void-level", str(rust["void_level"])]
+    sk_t, sk_mb, sk_out = measure(sk_cmd)
     sk = json.loads(sk_out)
     print(f"image: {image} ({a.size} x {a.size}, 16-bit); scikit-image {skimage.__version__}")
     print(f"consolute segment : {rust_t:8.2f} s wall, peak {rust_mb:8.0f} MiB, "
