@@ -51,7 +51,8 @@ fn main() {
     );
     let mut cm = seg.class_map.clone();
     let t = Instant::now();
-    micrograph::segment::exclude_voids_with_rim(&plane, &region, v.unwrap_or(0), 2, &mut cm);
+    let _ =
+        micrograph::segment::exclude_voids_with_rim(&plane, &region, v.unwrap_or(0), 2, &mut cm);
     println!("voids + rim     {:8.3} s", t.elapsed().as_secs_f64());
     let t = Instant::now();
     micrograph::segment::remove_small_features(&mut cm, plane.width, plane.height, 4, 2).unwrap();
