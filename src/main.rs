@@ -34,6 +34,8 @@ enum Command {
     Models(cli::solvus::ModelsArgs),
     /// Recompute a whole project and write results, tables and a summary.
     Run(cli::run::RunArgs),
+    /// One figure of a grain (solvus, ternary, histogram, micrograph) as SVG, PNG or PDF.
+    Figure(cli::figure::FigureArgs),
 }
 
 fn main() -> ExitCode {
@@ -46,6 +48,7 @@ fn main() -> ExitCode {
         Some(Command::PairTemp(args)) => cli::solvus::run_pair_temp(&args),
         Some(Command::Models(args)) => cli::solvus::run_models(&args),
         Some(Command::Run(args)) => cli::run::run(&args),
+        Some(Command::Figure(args)) => cli::figure::run(&args),
         None => Err(anyhow::anyhow!(
             "the workbench is not built yet; run `consolute --help` for the subcommands"
         )),

@@ -1,6 +1,7 @@
 //! One module per subcommand. Each exposes a clap `Args` struct and `run(&Args) -> anyhow::Result<()>`;
 //! with `--json` it prints one JSON object on stdout, otherwise a readable table.
 
+pub mod figure;
 pub mod formula;
 pub mod run;
 pub mod segment;

@@ -48,6 +48,10 @@ pub fn run(args: &RunArgs) -> anyhow::Result<()> {
     .map_err(anyhow::Error::msg)
     .with_context(|| format!("running {}", args.project.display()))?;
     write_outputs(&project, &result, &args.out)?;
+    let report = project::report::write_report(&project, &args.project, &result, &args.out)?;
+    for p in &report.problems {
+        eprintln!("figure not written: {p}");
+    }
     if args.json {
         println!(
             "{}",
@@ -55,7 +59,8 @@ pub fn run(args: &RunArgs) -> anyhow::Result<()> {
         );
     }
     eprintln!(
-        "wrote results.json, phases.csv, bulk.csv, temperatures.csv and summary.txt to {}",
+        "wrote results.json, phases.csv, bulk.csv, temperatures.csv, summary.txt, report.md, report.html and {} figure files to {}",
+        report.figures.len(),
         args.out.display()
     );
     if result.failures.is_empty() {

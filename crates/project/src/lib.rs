@@ -10,8 +10,10 @@
 //! ```
 
 mod document;
+pub mod figure;
 mod io;
 pub mod output;
+pub mod report;
 mod run;
 
 pub use document::{
