@@ -79,6 +79,10 @@ pub struct SegmentArgs {
     /// Memory budget for loading, MiB.
     #[arg(long, default_value_t = 2048)]
     pub memory_budget_mib: u64,
+    /// Also measure the lamellae (the phase with the smaller area): count, areas, width,
+    /// orientation, spacing; warns when they are only a few pixels wide.
+    #[arg(long)]
+    pub morphometry: bool,
     /// Print one JSON object on stdout instead of a table.
     #[arg(long)]
     pub json: bool,
@@ -164,6 +168,27 @@ pub fn run(args: &SegmentArgs) -> anyhow::Result<()> {
     let seg = segment(&plane, &region, &settings, &Control::none())
         .with_context(|| format!("segmenting {}", args.image.display()))?;
     warnings.extend(seg.warnings.iter().cloned());
+    let morph = if args.morphometry {
+        let lamellae = seg
+            .phases
+            .iter()
+            .enumerate()
+            .min_by(|a, b| a.1.area_fraction.total_cmp(&b.1.area_fraction))
+            .map(|(i, _)| i as u8)
+            .unwrap_or(0);
+        let m = micrograph::morphometry::morphometry(
+            &seg.class_map,
+            seg.width,
+            seg.height,
+            lamellae,
+            pixel_size,
+            &Control::none(),
+        )?;
+        warnings.extend(m.warnings.iter().cloned());
+        Some((lamellae, m))
+    } else {
+        None
+    };
 
     if args.json {
         let out = json!({
@@ -190,6 +215,18 @@ pub fn run(args: &SegmentArgs) -> anyhow::Result<()> {
             "sensitivity": seg.sensitivity,
             "unmixing": seg.unmixing,
             "flattening": flattening,
+            "morphometry": morph.as_ref().map(|(phase, m)| json!({
+                "phase": seg.phases[usize::from(*phase)].label,
+                "count": m.count,
+                "median_area_px": m.median_area_px,
+                "median_area_um2": m.median_area_um2,
+                "mean_width_px": m.mean_width_px,
+                "mean_width_um": m.mean_width_um,
+                "orientation_deg": m.orientation_deg,
+                "coherence": m.coherence,
+                "spacing_px": m.spacing_px,
+                "spacing_um": m.spacing_um,
+            })),
             "warnings": warnings,
         });
         println!("{}", serde_json::to_string_pretty(&out)?);
@@ -233,6 +270,18 @@ pub fn run(args: &SegmentArgs) -> anyhow::Result<()> {
                 100.0 * u.area_fraction[1],
                 u.pure_levels[0],
                 u.pure_levels[1]
+            );
+        }
+        if let Some((phase, m)) = &morph {
+            println!(
+                "lamellae ({}): {} features, mean width {:.1} px, orientation {:.1} deg, spacing {}",
+                seg.phases[usize::from(*phase)].label,
+                m.count,
+                m.mean_width_px,
+                m.orientation_deg,
+                m.spacing_px
+                    .map(|s| format!("{s:.1} px"))
+                    .unwrap_or_else(|| "n/a".to_string())
             );
         }
         for w in &warnings {

@@ -7,7 +7,7 @@ use std::path::PathBuf;
 #[non_exhaustive]
 pub enum MicrographError {
     /// The file could not be opened or read.
-    #[error("cannot read {path}: {source}")]
+    #[error("cannot read {path}")]
     Io {
         /// The file.
         path: PathBuf,
