@@ -49,9 +49,8 @@ fn main() -> ExitCode {
         Some(Command::Models(args)) => cli::solvus::run_models(&args),
         Some(Command::Run(args)) => cli::run::run(&args),
         Some(Command::Figure(args)) => cli::figure::run(&args),
-        None => Err(anyhow::anyhow!(
-            "the workbench is not built yet; run `consolute --help` for the subcommands"
-        )),
+        // No subcommand: the workbench window, on the last project or the bundled demo.
+        None => workbench::run(None).map_err(anyhow::Error::from),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

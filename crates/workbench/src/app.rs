@@ -1,0 +1,813 @@
+//! The application: document, results, running jobs and the view state of each panel, drawn
+//! once a frame by [`Workbench::ui_root`], with the frame's actions applied afterwards.
+
+use std::path::PathBuf;
+use std::sync::Arc;
+
+use egui::{Key, KeyboardShortcut, Modifiers, Ui};
+use mineral::SpotTable;
+use project::{GrainFailure, GrainResult, RunResult};
+use reintegration::MineralSystem;
+
+use crate::command::Command;
+use crate::document::{Document, GrainRef, MicrographRef};
+use crate::files::{self, PathPrompt, PromptPurpose};
+use crate::jobs::{ClassData, ImageData, ImageJob, RunJob, image_key};
+use crate::panels;
+use crate::plots::SolvusLine;
+use crate::stages;
+
+/// How the workbench starts.
+#[derive(Debug, Clone, Default)]
+pub struct WorkbenchOptions {
+    /// The project to open (none: an empty project).
+    pub project: Option<PathBuf>,
+    /// Remember opened projects in the user's recent list (off for tests).
+    pub remember_recent: bool,
+    /// Compute the project as soon as it is open.
+    pub run_on_open: bool,
+}
+
+impl WorkbenchOptions {
+    /// An empty project, nothing remembered, nothing run.
+    pub fn empty() -> Self {
+        Self::default()
+    }
+
+    /// The bundled demo, nothing remembered.
+    pub fn demo(run_on_open: bool) -> Self {
+        WorkbenchOptions {
+            project: Some(crate::demo_project_path()),
+            remember_recent: false,
+            run_on_open,
+        }
+    }
+}
+
+/// The five stages of a grain's route.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Stage {
+    /// The micrograph: region, pixel values, scale.
+    Image,
+    /// Grey levels, phase classes and their area fractions.
+    Phases,
+    /// Spot analyses of each phase.
+    Analyses,
+    /// Reintegration into the bulk composition.
+    Bulk,
+    /// Solvus, minimum crystallisation and pair temperatures.
+    Temperature,
+}
+
+impl Stage {
+    /// All stages, in route order.
+    pub const ALL: [Stage; 5] = [
+        Stage::Image,
+        Stage::Phases,
+        Stage::Analyses,
+        Stage::Bulk,
+        Stage::Temperature,
+    ];
+
+    /// The stage's name on screen.
+    pub fn label(self) -> &'static str {
+        match self {
+            Stage::Image => "Image",
+            Stage::Phases => "Phases",
+            Stage::Analyses => "Analyses",
+            Stage::Bulk => "Bulk",
+            Stage::Temperature => "Temperature",
+        }
+    }
+}
+
+/// Something the user asked for during a frame; applied after drawing.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Action {
+    /// An edit of the document.
+    Edit(Command),
+    /// Select a grain.
+    SelectGrain(GrainRef),
+    /// Select a micrograph (and its grain).
+    SelectMicrograph(MicrographRef),
+    /// Open a stage.
+    OpenStage(Stage),
+    /// Compute the project.
+    Run,
+    /// Stop the computation.
+    CancelRun,
+    /// Undo the last edit.
+    Undo,
+    /// Redo.
+    Redo,
+    /// Save to the project file.
+    Save,
+    /// Ask for a file to save to.
+    SaveAs,
+    /// Ask for a project to open.
+    Open,
+    /// Open this project file.
+    OpenPath(PathBuf),
+    /// Open the bundled demo.
+    OpenDemo,
+}
+
+/// The shortcuts of the common actions (shown in menus and tooltips).
+pub mod shortcuts {
+    use super::*;
+    /// Open a project.
+    pub const OPEN: KeyboardShortcut = KeyboardShortcut::new(Modifiers::COMMAND, Key::O);
+    /// Save.
+    pub const SAVE: KeyboardShortcut = KeyboardShortcut::new(Modifiers::COMMAND, Key::S);
+    /// Save under another name.
+    pub const SAVE_AS: KeyboardShortcut =
+        KeyboardShortcut::new(Modifiers::COMMAND.plus(Modifiers::SHIFT), Key::S);
+    /// Undo.
+    pub const UNDO: KeyboardShortcut = KeyboardShortcut::new(Modifiers::COMMAND, Key::Z);
+    /// Redo.
+    pub const REDO: KeyboardShortcut = KeyboardShortcut::new(Modifiers::COMMAND, Key::Y);
+    /// Compute the project.
+    pub const RUN: KeyboardShortcut = KeyboardShortcut::new(Modifiers::COMMAND, Key::R);
+}
+
+/// Computed results and the document revision they were computed from.
+pub struct Results {
+    /// The run.
+    pub run: RunResult,
+    /// Document revision at the start of the run.
+    pub revision: u64,
+}
+
+/// What a panel may read while drawing: the document, results, and what is loaded.
+pub struct View<'a> {
+    /// The document.
+    pub doc: &'a Document,
+    /// The last results.
+    pub run: Option<&'a RunResult>,
+    /// The results are older than the document.
+    pub stale: bool,
+    /// A run is going on.
+    pub running: bool,
+    /// Why the last run failed as a whole.
+    pub run_error: Option<&'a str>,
+    /// Selected grain.
+    pub grain: Option<GrainRef>,
+    /// Selected micrograph of that grain.
+    pub micrograph: usize,
+    /// The selected micrograph's image, once loaded.
+    pub image: Option<&'a ImageData>,
+    /// Its classification (possibly for earlier settings while a new one runs).
+    pub classes: Option<&'a ClassData>,
+    /// The classification in hand matches the document.
+    pub classes_current: bool,
+    /// Loading or classifying: the fraction done.
+    pub image_busy: Option<f32>,
+    /// Why the image could not be loaded or classified.
+    pub image_error: Option<&'a str>,
+    /// The solvus of the project's model and pressure.
+    pub solvus: Option<&'a Result<SolvusLine, String>>,
+    /// Solvi of the other built-in models, for comparison.
+    pub other_solvi: &'a [SolvusLine],
+    /// Spot analyses read from the project's files.
+    pub spot_tables: &'a [(MineralSystem, Result<SpotTable, String>)],
+}
+
+impl View<'_> {
+    /// The selected micrograph.
+    pub fn micrograph_ref(&self) -> Option<MicrographRef> {
+        let grain = self.grain?;
+        let n = self.doc.grain(grain)?.micrographs.len();
+        (self.micrograph < n).then_some(MicrographRef {
+            grain,
+            micrograph: self.micrograph,
+        })
+    }
+
+    /// Result of a grain.
+    pub fn result(&self, at: GrainRef) -> Option<&GrainResult> {
+        let sample = self.doc.sample(at)?;
+        let grain = self.doc.grain(at)?;
+        self.run?
+            .grains
+            .iter()
+            .find(|g| g.sample == sample.id && g.grain == grain.id)
+    }
+
+    /// Failure of a grain.
+    pub fn failure(&self, at: GrainRef) -> Option<&GrainFailure> {
+        let sample = self.doc.sample(at)?;
+        let grain = self.doc.grain(at)?;
+        self.run?
+            .failures
+            .iter()
+            .find(|g| g.sample == sample.id && g.grain == grain.id)
+    }
+}
+
+/// The workbench application.
+pub struct Workbench {
+    doc: Document,
+    options: WorkbenchOptions,
+    grain: Option<GrainRef>,
+    micrograph: usize,
+    stage: Stage,
+    results: Option<Results>,
+    run_error: Option<String>,
+    run_job: Option<RunJob>,
+    image_data: Option<Arc<ImageData>>,
+    classes: Option<ClassData>,
+    image_error: Option<(String, String)>,
+    image_job: Option<ImageJob>,
+    solvus: Option<((String, u64), Result<SolvusLine, String>)>,
+    other_solvi: Option<((String, u64), Vec<SolvusLine>)>,
+    spot_tables: Vec<(MineralSystem, Result<SpotTable, String>)>,
+    image_stage: stages::image::ImageStage,
+    phases_stage: stages::phases::PhasesStage,
+    temperature_stage: stages::temperature::TemperatureStage,
+    status: String,
+    prompt: Option<PathPrompt>,
+    restore_offer: Option<PathBuf>,
+    last_autosave: f64,
+    close_prompt: bool,
+    allow_close: bool,
+    started: bool,
+}
+
+impl Workbench {
+    /// A workbench on the project named in `options` (an empty project when none is named or
+    /// it cannot be read; the reason is shown in the status line).
+    pub fn new(options: WorkbenchOptions) -> Self {
+        let mut app = Workbench {
+            doc: Document::new(project::Project::new("untitled"), None),
+            options: options.clone(),
+            grain: None,
+            micrograph: 0,
+            stage: Stage::Phases,
+            results: None,
+            run_error: None,
+            run_job: None,
+            image_data: None,
+            classes: None,
+            image_error: None,
+            image_job: None,
+            solvus: None,
+            other_solvi: None,
+            spot_tables: Vec::new(),
+            image_stage: Default::default(),
+            phases_stage: Default::default(),
+            temperature_stage: Default::default(),
+            status: String::new(),
+            prompt: None,
+            restore_offer: None,
+            last_autosave: 0.0,
+            close_prompt: false,
+            allow_close: false,
+            started: false,
+        };
+        if let Some(path) = options.project {
+            app.open_path(path);
+        }
+        app
+    }
+
+    /// The document.
+    pub fn document(&self) -> &Document {
+        &self.doc
+    }
+
+    /// Apply an edit as if it came from a panel (for scripts and tests); the outcome is in
+    /// [`Self::status`].
+    pub fn edit(&mut self, command: Command) {
+        let what = command.describe();
+        self.status = match self.doc.apply(command) {
+            Ok(()) => what,
+            Err(e) => format!("not applied: {e}"),
+        };
+    }
+
+    /// The stage open in the centre.
+    pub fn stage(&self) -> Stage {
+        self.stage
+    }
+
+    /// The selected grain.
+    pub fn selected_grain(&self) -> Option<GrainRef> {
+        self.grain
+    }
+
+    /// The last results.
+    pub fn results(&self) -> Option<&RunResult> {
+        self.results.as_ref().map(|r| &r.run)
+    }
+
+    /// The last status message (saves, errors, undo).
+    pub fn status(&self) -> &str {
+        &self.status
+    }
+
+    /// A run or an image job is still going on.
+    pub fn busy(&self) -> bool {
+        self.run_job.is_some() || self.image_job.is_some()
+    }
+
+    /// The phase fractions the Phases stage shows for the selected micrograph (grain phase
+    /// order), as computed from the histogram at the levels shown.
+    pub fn shown_fractions(&self) -> Option<Vec<f64>> {
+        let at = MicrographRef {
+            grain: self.grain?,
+            micrograph: self.micrograph,
+        };
+        let spec = self.doc.micrograph(at)?;
+        let grain = self.doc.grain(at.grain)?;
+        let classes = self.classes.as_ref()?;
+        let levels = self.phases_stage.levels_shown(spec, &classes.segmentation);
+        Some(stages::phases::phase_fractions(
+            grain,
+            spec,
+            &classes.segmentation.fractions_at(&levels),
+        ))
+    }
+
+    /// Where the Phases stage last drew level `index` (for tests driving the drag).
+    #[doc(hidden)]
+    pub fn level_handle_pos(&self, index: usize) -> Option<egui::Pos2> {
+        self.phases_stage.handle_pos(index)
+    }
+
+    fn open_path(&mut self, path: PathBuf) {
+        match Document::open(&path) {
+            Ok(doc) => {
+                self.doc = doc;
+                self.results = None;
+                self.run_error = None;
+                self.image_data = None;
+                self.classes = None;
+                self.image_error = None;
+                self.image_job = None;
+                self.grain = self.doc.grains().first().copied();
+                self.micrograph = 0;
+                self.status = format!("opened {}", path.display());
+                self.restore_offer = project::pending_autosave(&path);
+                self.load_spot_tables();
+                if self.options.remember_recent {
+                    files::remember(&path);
+                }
+                self.started = false;
+            }
+            Err(e) => self.status = format!("could not open: {e}"),
+        }
+    }
+
+    fn load_spot_tables(&mut self) {
+        self.spot_tables = self
+            .doc
+            .project
+            .analysis_files
+            .iter()
+            .map(|f| {
+                let path = self.doc.resolve(&f.path);
+                (
+                    f.system,
+                    mineral::read_spot_file(&path).map_err(|e| e.to_string()),
+                )
+            })
+            .collect();
+    }
+
+    fn start_run(&mut self, ctx: &egui::Context) {
+        if let Some(job) = &self.run_job {
+            job.cancel();
+        }
+        match RunJob::start(
+            self.doc.project.clone(),
+            self.doc.path_or_default(),
+            self.doc.revision,
+            ctx.clone(),
+        ) {
+            Ok(job) => {
+                self.run_job = Some(job);
+                self.run_error = None;
+            }
+            Err(e) => self.run_error = Some(e),
+        }
+    }
+
+    fn save_to(&mut self, path: PathBuf) {
+        match project::save_project(&self.doc.project, &path) {
+            Ok(()) => {
+                let moved = self.doc.path.as_ref() != Some(&path);
+                self.doc.path = Some(path.clone());
+                self.doc.dirty = false;
+                self.status = format!("saved {}", path.display());
+                if moved {
+                    self.load_spot_tables();
+                }
+                if self.options.remember_recent {
+                    files::remember(&path);
+                }
+            }
+            Err(e) => self.status = format!("not saved: {e}"),
+        }
+    }
+
+    fn apply(&mut self, action: Action, ctx: &egui::Context) {
+        match action {
+            Action::Edit(command) => {
+                let what = command.describe();
+                match self.doc.apply(command) {
+                    Ok(()) => self.status = what,
+                    Err(e) => self.status = format!("not applied: {e}"),
+                }
+            }
+            Action::SelectGrain(g) => {
+                if self.grain != Some(g) {
+                    self.micrograph = 0;
+                }
+                self.grain = Some(g);
+            }
+            Action::SelectMicrograph(m) => {
+                self.grain = Some(m.grain);
+                self.micrograph = m.micrograph;
+                if !matches!(self.stage, Stage::Image | Stage::Phases) {
+                    self.stage = Stage::Image;
+                }
+            }
+            Action::OpenStage(s) => self.stage = s,
+            Action::Run => self.start_run(ctx),
+            Action::CancelRun => {
+                if let Some(job) = &self.run_job {
+                    job.cancel();
+                }
+            }
+            Action::Undo => {
+                self.status = match self.doc.undo() {
+                    Some(w) => format!("undid {w}"),
+                    None => "nothing to undo".into(),
+                }
+            }
+            Action::Redo => {
+                self.status = match self.doc.redo() {
+                    Some(w) => format!("redid {w}"),
+                    None => "nothing to redo".into(),
+                }
+            }
+            Action::Save => match self.doc.path.clone() {
+                Some(p) => self.save_to(p),
+                None => self.prompt = Some(PathPrompt::new(PromptPurpose::SaveAs, None)),
+            },
+            Action::SaveAs => {
+                self.prompt = Some(PathPrompt::new(
+                    PromptPurpose::SaveAs,
+                    self.doc.path.clone(),
+                ))
+            }
+            Action::Open => {
+                self.prompt = Some(PathPrompt::new(PromptPurpose::Open, self.doc.path.clone()))
+            }
+            Action::OpenPath(p) => self.open_path(p),
+            Action::OpenDemo => self.open_path(crate::demo_project_path()),
+        }
+    }
+
+    /// Poll the jobs and start the image job the selection needs.
+    fn tend_jobs(&mut self, ctx: &egui::Context) {
+        if let Some(job) = &self.run_job
+            && let Some(outcome) = job.poll()
+        {
+            let revision = job.revision;
+            self.run_job = None;
+            match outcome {
+                Ok(run) => {
+                    self.status = format!(
+                        "computed {} grains{}",
+                        run.grains.len(),
+                        if run.failures.is_empty() {
+                            String::new()
+                        } else {
+                            format!(", {} could not be computed", run.failures.len())
+                        }
+                    );
+                    self.results = Some(Results { run, revision });
+                    self.run_error = None;
+                }
+                Err(e) => {
+                    self.status = format!("run stopped: {e}");
+                    self.run_error = Some(e);
+                }
+            }
+        }
+        if let Some(job) = &self.image_job
+            && let Some(outcome) = job.poll()
+        {
+            let key = job.key.clone();
+            self.image_job = None;
+            match outcome.image {
+                Ok(d) => self.image_data = Some(d),
+                Err(e) => {
+                    self.image_data = None;
+                    self.image_error = Some((key.clone(), e));
+                }
+            }
+            match outcome.classes {
+                Ok(c) => {
+                    self.classes = Some(c);
+                    self.phases_stage.clear_live();
+                }
+                Err(e) => self.image_error = Some((key, e)),
+            }
+        }
+        // The image the selection needs.
+        let wanted = self.grain.and_then(|g| {
+            let at = MicrographRef {
+                grain: g,
+                micrograph: self.micrograph,
+            };
+            let spec = self.doc.micrograph(at)?;
+            let path = self.doc.resolve(&spec.path);
+            Some((image_key(&path, spec), path, spec.clone()))
+        });
+        if let Some((key, path, spec)) = wanted {
+            let have = self.classes.as_ref().is_some_and(|c| c.key == key)
+                || self.image_job.as_ref().is_some_and(|j| j.key == key)
+                || self.image_error.as_ref().is_some_and(|(k, _)| *k == key);
+            if !have {
+                let max_side = ctx.input(|i| i.max_texture_side);
+                let reuse = self.image_data.clone();
+                if self.image_data.as_ref().is_some_and(|d| d.path != path) {
+                    self.image_data = None;
+                    self.classes = None;
+                }
+                self.image_error = None;
+                match ImageJob::start(ctx.clone(), path, spec, reuse, max_side) {
+                    Ok(job) => self.image_job = Some(job),
+                    Err(e) => self.image_error = Some((key, e)),
+                }
+            }
+        }
+        // The solvus of the current model and pressure.
+        let settings = &self.doc.project.settings;
+        let key = (
+            settings.feldspar_model.clone(),
+            settings.pressure_kbar.to_bits(),
+        );
+        if self.solvus.as_ref().map(|(k, _)| k) != Some(&key) {
+            let line = SolvusLine::trace(&settings.feldspar_model, settings.pressure_kbar);
+            self.solvus = Some((key.clone(), line));
+        }
+        if self.temperature_stage.compare && self.other_solvi.as_ref().map(|(k, _)| k) != Some(&key)
+        {
+            let others = solvus::BUILTIN_IDS
+                .iter()
+                .filter(|id| **id != settings.feldspar_model)
+                .filter_map(|id| SolvusLine::trace(id, settings.pressure_kbar).ok())
+                .collect();
+            self.other_solvi = Some((key, others));
+        }
+        if self.busy() {
+            ctx.request_repaint_after(std::time::Duration::from_millis(100));
+        }
+    }
+
+    fn autosave(&mut self, now: f64) {
+        const EVERY_S: f64 = 60.0;
+        if now - self.last_autosave < EVERY_S {
+            return;
+        }
+        self.last_autosave = now;
+        if self.doc.dirty
+            && let Some(path) = &self.doc.path
+        {
+            match project::autosave_project(&self.doc.project, path) {
+                Ok(()) => self.status = "autosaved".into(),
+                Err(e) => self.status = format!("autosave failed: {e}"),
+            }
+        }
+    }
+
+    fn shortcuts(&self, ctx: &egui::Context, actions: &mut Vec<Action>) {
+        use shortcuts::*;
+        ctx.input_mut(|i| {
+            for (s, a) in [
+                (SAVE_AS, Action::SaveAs),
+                (SAVE, Action::Save),
+                (OPEN, Action::Open),
+                (UNDO, Action::Undo),
+                (REDO, Action::Redo),
+                (RUN, Action::Run),
+            ] {
+                if i.consume_shortcut(&s) {
+                    actions.push(a);
+                }
+            }
+        });
+    }
+
+    /// Draw the whole window into `ui` and apply what the user asked for.
+    pub fn ui_root(&mut self, ui: &mut Ui) {
+        let ctx = ui.ctx().clone();
+        if !self.started {
+            self.started = true;
+            if self.options.run_on_open && !self.doc.project.samples.is_empty() {
+                self.start_run(&ctx);
+            }
+        }
+        self.tend_jobs(&ctx);
+        self.autosave(ctx.input(|i| i.time));
+        let mut actions = Vec::new();
+        self.shortcuts(&ctx, &mut actions);
+
+        let stale = self
+            .results
+            .as_ref()
+            .is_some_and(|r| r.revision != self.doc.revision);
+        let wanted_key = self.grain.and_then(|g| {
+            let spec = self.doc.micrograph(MicrographRef {
+                grain: g,
+                micrograph: self.micrograph,
+            })?;
+            Some(image_key(&self.doc.resolve(&spec.path), spec))
+        });
+        let image = self.image_data.as_deref().filter(|d| {
+            self.grain
+                .and_then(|g| {
+                    self.doc.micrograph(MicrographRef {
+                        grain: g,
+                        micrograph: self.micrograph,
+                    })
+                })
+                .is_some_and(|spec| self.doc.resolve(&spec.path) == d.path)
+        });
+        let view = View {
+            doc: &self.doc,
+            run: self.results.as_ref().map(|r| &r.run),
+            stale,
+            running: self.run_job.is_some(),
+            run_error: self.run_error.as_deref(),
+            grain: self.grain,
+            micrograph: self.micrograph,
+            image,
+            classes: self.classes.as_ref().filter(|_| image.is_some()),
+            classes_current: self
+                .classes
+                .as_ref()
+                .is_some_and(|c| Some(&c.key) == wanted_key.as_ref()),
+            image_busy: self.image_job.as_ref().map(|j| j.fraction()),
+            image_error: self
+                .image_error
+                .as_ref()
+                .filter(|(k, _)| Some(k) == wanted_key.as_ref())
+                .map(|(_, e)| e.as_str()),
+            solvus: self.solvus.as_ref().map(|(_, s)| s),
+            other_solvi: match (&self.other_solvi, self.temperature_stage.compare) {
+                (Some((_, v)), true) => v,
+                _ => &[],
+            },
+            spot_tables: &self.spot_tables,
+        };
+
+        egui::Panel::top("menu").show(ui, |ui| {
+            panels::top::ui(ui, &view, self.run_job.as_ref(), &self.status, &mut actions);
+        });
+        egui::Panel::bottom("messages")
+            .resizable(true)
+            .default_size(120.0)
+            .min_size(60.0)
+            .show(ui, |ui| {
+                panels::messages::ui(ui, &view, &mut actions);
+            });
+        egui::Panel::left("study")
+            .resizable(true)
+            .default_size(230.0)
+            .show(ui, |ui| {
+                panels::tree::ui(ui, &view, &mut actions);
+            });
+        egui::Panel::right("card")
+            .resizable(true)
+            .default_size(340.0)
+            .show(ui, |ui| {
+                panels::card::ui(ui, &view, &mut actions);
+            });
+        egui::CentralPanel::default().show(ui, |ui| {
+            panels::route::ui(ui, &view, self.stage, &mut actions);
+            ui.separator();
+            match self.stage {
+                Stage::Image => self.image_stage.ui(ui, &view, &mut actions),
+                Stage::Phases => {
+                    self.phases_stage
+                        .ui(ui, &view, &mut self.image_stage, &mut actions)
+                }
+                Stage::Analyses => stages::analyses::ui(ui, &view, &mut actions),
+                Stage::Bulk => stages::bulk::ui(ui, &view, self.run_job.as_ref(), &mut actions),
+                Stage::Temperature => self.temperature_stage.ui(ui, &view, &mut actions),
+            }
+        });
+
+        self.dialogs_ui(&ctx, &mut actions);
+        for action in actions {
+            self.apply(action, &ctx);
+        }
+    }
+
+    fn dialogs_ui(&mut self, ctx: &egui::Context, actions: &mut Vec<Action>) {
+        if let Some(prompt) = &mut self.prompt {
+            match prompt.ui(ctx) {
+                files::PromptOutcome::Open(p) => {
+                    actions.push(Action::OpenPath(p));
+                    self.prompt = None;
+                }
+                files::PromptOutcome::SaveAs(p) => {
+                    self.prompt = None;
+                    self.save_to(p);
+                }
+                files::PromptOutcome::Cancel => self.prompt = None,
+                files::PromptOutcome::Pending => {}
+            }
+        }
+        if let Some(autosave) = self.restore_offer.clone() {
+            let modal = egui::Modal::new(egui::Id::unique("consolute-restore")).show(ctx, |ui| {
+                ui.heading("Restore unsaved work?");
+                ui.label(format!(
+                    "An autosave newer than the project file was found:\n{}",
+                    autosave.display()
+                ));
+                ui.horizontal(|ui| {
+                    if ui.button("Restore the autosave").clicked() {
+                        return Some(true);
+                    }
+                    if ui.button("Keep the saved project").clicked() {
+                        return Some(false);
+                    }
+                    None
+                })
+                .inner
+            });
+            match modal.inner {
+                Some(true) => {
+                    match project::load_project(&autosave) {
+                        Ok(p) => {
+                            let path = self.doc.path.clone();
+                            self.doc = Document::new(p, path);
+                            self.doc.dirty = true;
+                            self.status = "restored the autosave (not yet saved)".into();
+                        }
+                        Err(e) => self.status = format!("could not restore: {e}"),
+                    }
+                    self.restore_offer = None;
+                }
+                Some(false) => self.restore_offer = None,
+                None => {}
+            }
+        }
+        // Closing with unsaved changes.
+        if ctx.input(|i| i.viewport().close_requested()) && self.doc.dirty && !self.allow_close {
+            ctx.send_viewport_cmd(egui::ViewportCommand::CancelClose);
+            self.close_prompt = true;
+        }
+        if self.close_prompt {
+            let modal = egui::Modal::new(egui::Id::unique("consolute-close")).show(ctx, |ui| {
+                ui.heading("Save changes before closing?");
+                ui.horizontal(|ui| {
+                    if ui.button("Save and close").clicked() {
+                        return Some(0);
+                    }
+                    if ui.button("Close without saving").clicked() {
+                        return Some(1);
+                    }
+                    if ui.button("Keep working").clicked() {
+                        return Some(2);
+                    }
+                    None
+                })
+                .inner
+            });
+            match modal.inner {
+                Some(0) => {
+                    if let Some(p) = self.doc.path.clone() {
+                        self.save_to(p);
+                    }
+                    self.allow_close = true;
+                    ctx.send_viewport_cmd(egui::ViewportCommand::Close);
+                }
+                Some(1) => {
+                    self.allow_close = true;
+                    ctx.send_viewport_cmd(egui::ViewportCommand::Close);
+                }
+                Some(_) => self.close_prompt = false,
+                None => {}
+            }
+        }
+        let _ = actions;
+    }
+}
+
+impl eframe::App for Workbench {
+    fn ui(&mut self, ui: &mut Ui, _frame: &mut eframe::Frame) {
+        self.ui_root(ui);
+    }
+
+    fn on_exit(&mut self, _gl: Option<&eframe::glow::Context>) {
+        if let Some(job) = &self.run_job {
+            job.cancel();
+        }
+    }
+}

@@ -1,0 +1,171 @@
+//! The open project with its file path and undo history. Nothing here knows about egui.
+
+use std::path::{Path, PathBuf};
+
+use project::{Grain, MicrographSpec, Project, ProjectError, Sample};
+
+use crate::command::Command;
+
+/// Where a grain sits in the project: sample index and grain index.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Default)]
+pub struct GrainRef {
+    /// Index of the sample.
+    pub sample: usize,
+    /// Index of the grain within the sample.
+    pub grain: usize,
+}
+
+/// Where a micrograph sits in the project.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Default)]
+pub struct MicrographRef {
+    /// The grain.
+    pub grain: GrainRef,
+    /// Index of the micrograph within the grain.
+    pub micrograph: usize,
+}
+
+/// The project being edited.
+#[derive(Debug, Clone)]
+pub struct Document {
+    /// The persisted document.
+    pub project: Project,
+    /// Its file (relative paths inside it resolve against this file's folder).
+    pub path: Option<PathBuf>,
+    /// Edited since the last save.
+    pub dirty: bool,
+    /// Counts every change (edits, undo, redo); results remember the revision they came from.
+    pub revision: u64,
+    undo: Vec<(Project, String)>,
+    redo: Vec<(Project, String)>,
+    merge: Option<String>,
+}
+
+impl Document {
+    /// A document holding `project`, read from `path`.
+    pub fn new(project: Project, path: Option<PathBuf>) -> Self {
+        Document {
+            project,
+            path,
+            dirty: false,
+            revision: 0,
+            undo: Vec::new(),
+            redo: Vec::new(),
+            merge: None,
+        }
+    }
+
+    /// Read a project file.
+    ///
+    /// # Errors
+    /// The project's own error, with file, line and column.
+    pub fn open(path: &Path) -> Result<Self, ProjectError> {
+        let project = project::load_project(path)?;
+        Ok(Self::new(project, Some(path.to_path_buf())))
+    }
+
+    /// Apply an edit, keeping the previous state for undo.
+    ///
+    /// # Errors
+    /// Why the edit does not apply (the document is left unchanged).
+    pub fn apply(&mut self, command: Command) -> Result<(), String> {
+        let before = self.project.clone();
+        let what = command.describe();
+        let merge = command.merge_key();
+        command.apply(&mut self.project)?;
+        if self.project == before {
+            return Ok(());
+        }
+        let continues = merge.is_some() && merge == self.merge && !self.undo.is_empty();
+        if continues {
+            if let Some(last) = self.undo.last_mut() {
+                last.1 = what;
+            }
+        } else {
+            self.undo.push((before, what));
+        }
+        self.merge = merge;
+        self.redo.clear();
+        self.changed();
+        Ok(())
+    }
+
+    fn changed(&mut self) {
+        self.dirty = true;
+        self.revision += 1;
+    }
+
+    /// Step back one edit. Returns what was undone.
+    pub fn undo(&mut self) -> Option<String> {
+        let (previous, what) = self.undo.pop()?;
+        self.merge = None;
+        let current = std::mem::replace(&mut self.project, previous);
+        self.redo.push((current, what.clone()));
+        self.changed();
+        Some(what)
+    }
+
+    /// Redo the last undone edit. Returns what was redone.
+    pub fn redo(&mut self) -> Option<String> {
+        let (next, what) = self.redo.pop()?;
+        self.merge = None;
+        let current = std::mem::replace(&mut self.project, next);
+        self.undo.push((current, what.clone()));
+        self.changed();
+        Some(what)
+    }
+
+    /// What undo would undo.
+    pub fn undo_label(&self) -> Option<&str> {
+        self.undo.last().map(|(_, w)| w.as_str())
+    }
+
+    /// What redo would redo.
+    pub fn redo_label(&self) -> Option<&str> {
+        self.redo.last().map(|(_, w)| w.as_str())
+    }
+
+    /// The sample of a grain reference.
+    pub fn sample(&self, at: GrainRef) -> Option<&Sample> {
+        self.project.samples.get(at.sample)
+    }
+
+    /// The grain of a reference.
+    pub fn grain(&self, at: GrainRef) -> Option<&Grain> {
+        self.sample(at)?.grains.get(at.grain)
+    }
+
+    /// The micrograph of a reference.
+    pub fn micrograph(&self, at: MicrographRef) -> Option<&MicrographSpec> {
+        self.grain(at.grain)?.micrographs.get(at.micrograph)
+    }
+
+    /// Every grain, in tree order.
+    pub fn grains(&self) -> Vec<GrainRef> {
+        self.project
+            .samples
+            .iter()
+            .enumerate()
+            .flat_map(|(s, sample)| {
+                (0..sample.grains.len()).map(move |g| GrainRef {
+                    sample: s,
+                    grain: g,
+                })
+            })
+            .collect()
+    }
+
+    /// Resolve a path stored in the project (relative to the project file).
+    pub fn resolve(&self, stored: &Path) -> PathBuf {
+        match &self.path {
+            Some(p) => Project::resolve(p, stored),
+            None => stored.to_path_buf(),
+        }
+    }
+
+    /// The project file, or a stand-in name in the working folder for a project never saved.
+    pub fn path_or_default(&self) -> PathBuf {
+        self.path
+            .clone()
+            .unwrap_or_else(|| PathBuf::from("untitled.json"))
+    }
+}

@@ -1,0 +1,145 @@
+//! The message strip: every warning and error for the selected grain, each clickable to the
+//! stage (and micrograph) where it arises.
+
+use egui::Ui;
+
+use super::route::failure_stage;
+use crate::app::{Action, Stage, View};
+use crate::document::MicrographRef;
+
+/// How serious a message is.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Severity {
+    /// Could not compute.
+    Error,
+    /// A result to check.
+    Warning,
+    /// For information.
+    Note,
+}
+
+/// One message with where it arises.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Message {
+    /// Seriousness.
+    pub severity: Severity,
+    /// Text.
+    pub text: String,
+    /// Where to go.
+    pub stage: Stage,
+    /// The micrograph, when it is about one.
+    pub micrograph: Option<usize>,
+}
+
+/// The messages of the selection.
+pub fn messages(view: &View<'_>) -> Vec<Message> {
+    let mut out = Vec::new();
+    if let Some(e) = view.run_error {
+        out.push(Message {
+            severity: Severity::Error,
+            text: format!("the computation stopped: {e}"),
+            stage: Stage::Bulk,
+            micrograph: None,
+        });
+    }
+    if let Some(e) = view.image_error {
+        out.push(Message {
+            severity: Severity::Error,
+            text: format!("micrograph: {e}"),
+            stage: Stage::Image,
+            micrograph: Some(view.micrograph),
+        });
+    }
+    let Some(at) = view.grain else { return out };
+    let grain = view.doc.grain(at);
+    if let Some(f) = view.failure(at) {
+        out.push(Message {
+            severity: Severity::Error,
+            text: f.message.clone(),
+            stage: failure_stage(&f.message),
+            micrograph: None,
+        });
+    }
+    if let Some(r) = view.result(at) {
+        for note in &r.notes {
+            let micrograph = grain.and_then(|g| {
+                g.micrographs
+                    .iter()
+                    .position(|m| note.starts_with(&format!("{}:", m.label)))
+            });
+            let (stage, severity) = if micrograph.is_some() {
+                (Stage::Phases, Severity::Warning)
+            } else if note.starts_with("spot ") {
+                (Stage::Analyses, Severity::Warning)
+            } else if note.starts_with("minimum temperature") || note.starts_with("pyroxene") {
+                (Stage::Temperature, Severity::Note)
+            } else {
+                (Stage::Bulk, Severity::Note)
+            };
+            out.push(Message {
+                severity,
+                text: note.clone(),
+                stage,
+                micrograph,
+            });
+        }
+        if let Some(p) = &r.pair {
+            for n in &p.notes {
+                out.push(Message {
+                    severity: Severity::Note,
+                    text: format!("pair: {n}"),
+                    stage: Stage::Temperature,
+                    micrograph: None,
+                });
+            }
+        }
+    }
+    if view.stale {
+        out.push(Message {
+            severity: Severity::Note,
+            text: "the results are from before the last edit; compute again to update them".into(),
+            stage: Stage::Bulk,
+            micrograph: None,
+        });
+    }
+    out
+}
+
+/// Draw the strip.
+pub fn ui(ui: &mut Ui, view: &View<'_>, actions: &mut Vec<Action>) {
+    let list = messages(view);
+    ui.horizontal(|ui| {
+        ui.label(egui::RichText::new("Messages").strong());
+        ui.weak(format!("{} for the selection", list.len()));
+    });
+    egui::ScrollArea::vertical()
+        .auto_shrink([false, false])
+        .show(ui, |ui| {
+            if list.is_empty() {
+                ui.weak("Nothing to report.");
+            }
+            for m in list {
+                ui.horizontal(|ui| {
+                    let (glyph, colour) = match m.severity {
+                        Severity::Error => ("⛔", ui.visuals().error_fg_color),
+                        Severity::Warning => ("⚠", ui.visuals().warn_fg_color),
+                        Severity::Note => ("ℹ", ui.visuals().weak_text_color()),
+                    };
+                    ui.colored_label(colour, glyph);
+                    ui.weak(format!("[{}]", m.stage.label()));
+                    let r = ui
+                        .add(egui::Button::new(&m.text).frame(false))
+                        .on_hover_text(format!("Go to {}", m.stage.label()));
+                    if r.clicked() {
+                        if let (Some(g), Some(micrograph)) = (view.grain, m.micrograph) {
+                            actions.push(Action::SelectMicrograph(MicrographRef {
+                                grain: g,
+                                micrograph,
+                            }));
+                        }
+                        actions.push(Action::OpenStage(m.stage));
+                    }
+                });
+            }
+        });
+}

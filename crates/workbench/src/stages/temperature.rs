@@ -1,0 +1,133 @@
+//! The Temperature stage: model and pressure, the T-X diagram with the solvus and the bulk
+//! point (hover reads temperature and composition), other models for comparison, the pair
+//! thermometry table and the distribution of the minimum temperature.
+
+use egui::Ui;
+use solvus::SolutionModel;
+
+use crate::app::{Action, View};
+use crate::command::Command;
+use crate::plots::{self, BulkPoint};
+
+/// View state of the Temperature stage.
+#[derive(Default)]
+pub struct TemperatureStage {
+    /// Draw the other built-in models' solvi too.
+    pub compare: bool,
+}
+
+impl TemperatureStage {
+    /// Draw the stage.
+    pub fn ui(&mut self, ui: &mut Ui, view: &View<'_>, actions: &mut Vec<Action>) {
+        let settings = &view.doc.project.settings;
+        ui.horizontal(|ui| {
+            let model_label = ui.label("Model");
+            model_label
+                .clone()
+                .on_hover_text("Solution model of the feldspar solvus");
+            let mut model = settings.feldspar_model.clone();
+            egui::ComboBox::from_id_salt("model")
+                .selected_text(&model)
+                .show_ui(ui, |ui| {
+                    for m in SolutionModel::builtins() {
+                        ui.selectable_value(
+                            &mut model,
+                            m.id.clone(),
+                            format!("{} — {}", m.id, m.citation),
+                        );
+                    }
+                })
+                .response
+                .labelled_by(model_label.id);
+            if model != settings.feldspar_model {
+                actions.push(Action::Edit(Command::SetModel(model)));
+            }
+            let l = ui.label("Pressure");
+            l.clone()
+                .on_hover_text("Pressure of crystallisation, an assumption you supply");
+            let mut p = settings.pressure_kbar;
+            if ui
+                .add(
+                    egui::DragValue::new(&mut p)
+                        .range(0.0..=30.0)
+                        .speed(0.05)
+                        .suffix(" kbar"),
+                )
+                .labelled_by(l.id)
+                .changed()
+            {
+                actions.push(Action::Edit(Command::SetPressure(p)));
+            }
+            ui.checkbox(&mut self.compare, "Compare models")
+                .on_hover_text("Draw the solvi of the other built-in models at the same pressure");
+        });
+        if let Some(Err(e)) = view.solvus {
+            ui.colored_label(ui.visuals().error_fg_color, format!("solvus: {e}"));
+        }
+        let result = view.grain.and_then(|g| view.result(g));
+        let bulk = result
+            .and_then(|r| BulkPoint::from_summaries(&r.monte_carlo.bulk, r.min_temperature()));
+        let solvus = view.solvus.and_then(|s| s.as_ref().ok());
+        let h = (ui.available_height() * 0.5).max(220.0);
+        plots::solvus_ui(ui, "tx-diagram", solvus, view.other_solvi, bulk, h, false);
+        let Some(r) = result else {
+            ui.label("Not computed yet.");
+            return;
+        };
+        ui.columns(2, |cols| {
+            let ui = &mut cols[0];
+            ui.label(egui::RichText::new("Minimum crystallisation temperature").strong());
+            match r.min_temperature() {
+                Some(t) => {
+                    ui.label(format!(
+                        "median {:.0} °C, 95 % interval {:.0}–{:.0} °C (mean {:.0}, sd {:.0}; Monte Carlo error of the median {:.1} °C)",
+                        t.median, t.p2_5, t.p97_5, t.mean, t.sd, t.mcse_median
+                    ));
+                }
+                None => {
+                    ui.weak("none for this grain");
+                }
+            }
+            let o = &r.monte_carlo.outcomes;
+            ui.weak(format!(
+                "{} draws: {} with a temperature, {} stable at every temperature, {} above the model's range, {} refused",
+                r.monte_carlo.temperature_draws.len(),
+                o.found,
+                o.stable_at_every_temperature,
+                o.above_range,
+                o.refused
+            ));
+            ui.add_space(6.0);
+            ui.label(egui::RichText::new("Lamella pair (two-feldspar thermometry)").strong());
+            match &r.pair {
+                Some(p) => {
+                    egui::Grid::new("pair").striped(true).show(ui, |ui| {
+                        for (name, t) in ["T_Ab", "T_Or", "T_An"].iter().zip(p.temperatures_c) {
+                            ui.label(*name);
+                            ui.label(t.map(|t| format!("{t:.0} °C")).unwrap_or_else(|| "no root in range".into()));
+                            ui.end_row();
+                        }
+                        ui.label("spread");
+                        ui.label(p.spread_c.map(|s| format!("{s:.0} °C")).unwrap_or_else(|| "—".into()));
+                        ui.end_row();
+                        ui.label("adjusted");
+                        ui.label(match (p.adjusted_c, p.concordant) {
+                            (Some(t), Some(true)) => format!("{t:.0} °C, concordant within the uncertainty"),
+                            (Some(t), _) => format!("{t:.0} °C, not concordant"),
+                            _ => "—".into(),
+                        });
+                        ui.end_row();
+                    });
+                    for n in &p.notes {
+                        ui.weak(n);
+                    }
+                }
+                None => {
+                    ui.weak("no pair thermometer for this grain");
+                }
+            }
+            let ui = &mut cols[1];
+            plots::temperature_histogram_ui(ui, &r.monte_carlo.temperature_draws, r.min_temperature(), 220.0);
+        });
+    }
+}
