@@ -69,7 +69,10 @@ pub fn run(args: &FigureArgs) -> anyhow::Result<()> {
         );
     };
     if !(args.width_mm.is_finite() && (20.0..=500.0).contains(&args.width_mm)) {
-        bail!("--width-mm {}: give a width from 20 to 500 mm", args.width_mm);
+        bail!(
+            "--width-mm {}: give a width from 20 to 500 mm",
+            args.width_mm
+        );
     }
     if args.micrograph == 0 {
         bail!("--micrograph counts from 1");
@@ -103,7 +106,12 @@ pub fn run(args: &FigureArgs) -> anyhow::Result<()> {
         .map_err(anyhow::Error::msg)
         .with_context(|| format!("running {}", args.project.display()))?;
     if let Some(f) = result.failures.first() {
-        bail!("grain {} / {} could not be computed: {}", f.sample, f.grain, f.message);
+        bail!(
+            "grain {} / {} could not be computed: {}",
+            f.sample,
+            f.grain,
+            f.message
+        );
     }
     let Some(g) = result.grains.first() else {
         bail!("grain {} gave no result", args.grain);

@@ -10,10 +10,7 @@ use std::path::{Path, PathBuf};
 use solvus::{ModelKind, SolutionModel};
 
 use crate::document::Project;
-use crate::figure::{
-    Figure, FigureKind, GrainFigureOptions, grain_figure, render,
-    short_citation,
-};
+use crate::figure::{Figure, FigureKind, GrainFigureOptions, grain_figure, render, short_citation};
 use crate::io::{ProjectError, write_atomically};
 use crate::run::{GrainResult, RunResult};
 
@@ -186,11 +183,12 @@ fn methods(project: &Project, run: &RunResult) -> String {
                 solvus::IdealMixing::AlAvoidance => "Al-avoidance ideal mixing",
             },
         ),
-        None => (format!("model '{}'", s.feldspar_model), "its ideal-mixing term"),
+        None => (
+            format!("model '{}'", s.feldspar_model),
+            "its ideal-mixing term",
+        ),
     };
-    let projected = model
-        .as_ref()
-        .is_some_and(|m| m.kind == ModelKind::Binary);
+    let projected = model.as_ref().is_some_and(|m| m.kind == ModelKind::Binary);
     format!(
         "Phase area fractions were measured on {micrographs} micrograph(s) by grey-level classification \
          (multi-level Otsu thresholds unless set by hand), with voids, cracks and their blurred rims \
@@ -266,7 +264,10 @@ fn cautions() -> Vec<String> {
 /// The report as blocks, figures included from `figures`.
 pub fn report_blocks(project: &Project, run: &RunResult, figures: &[GrainFigure]) -> Vec<Block> {
     let s = &project.settings;
-    let mut b = vec![Block::Heading(1, format!("Consolute report: {}", project.name))];
+    let mut b = vec![Block::Heading(
+        1,
+        format!("Consolute report: {}", project.name),
+    )];
     if !project.description.is_empty() {
         b.push(Block::Para(project.description.clone()));
     }
@@ -308,11 +309,15 @@ pub fn report_blocks(project: &Project, run: &RunResult, figures: &[GrainFigure]
             format!("{:?}", g.system).to_lowercase(),
             bulk.join(", "),
             tmin,
-            format!(
-                "{} of {}",
-                g.monte_carlo.outcomes.found,
-                g.monte_carlo.temperature_draws.len()
-            ),
+            if g.system == reintegration::MineralSystem::Feldspar {
+                format!(
+                    "{} of {}",
+                    g.monte_carlo.outcomes.found,
+                    g.monte_carlo.temperature_draws.len()
+                )
+            } else {
+                "–".into()
+            },
             pair,
         ]);
     }
@@ -399,7 +404,8 @@ pub fn report_blocks(project: &Project, run: &RunResult, figures: &[GrainFigure]
                 g.grain.clone(),
                 m.label.clone(),
                 m.measured_pixels.to_string(),
-                m.measured_area_um2.map_or("–".into(), |a| format!("{a:.0}")),
+                m.measured_area_um2
+                    .map_or("–".into(), |a| format!("{a:.0}")),
                 f3(m.excluded_fraction),
                 fr.join(", "),
             ]);
@@ -563,6 +569,11 @@ pub fn to_html(blocks: &[Block]) -> String {
                 out.push_str("</table>\n");
             }
             Block::Figure { caption, stem, svg } => {
+                // ids inside inline SVGs share the page: make each figure's clip id its own
+                let clip = format!("plot-{stem}");
+                let svg = svg
+                    .replace("id=\"plot\"", &format!("id=\"{clip}\""))
+                    .replace("url(#plot)", &format!("url(#{clip})"));
                 let _ = writeln!(
                     out,
                     "<figure id=\"{}\">\n{}<figcaption>{}</figcaption>\n</figure>",

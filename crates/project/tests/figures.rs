@@ -89,6 +89,25 @@ fn every_kind_renders_to_svg_png_and_pdf() {
             "{}: page width {w} pt",
             kind.name()
         );
+        // the micrograph goes into the PDF as an image XObject
+        let images = doc
+            .objects
+            .values()
+            .filter(|o| {
+                o.as_stream().is_ok_and(|s| {
+                    s.dict
+                        .get(b"Subtype")
+                        .and_then(|v| v.as_name())
+                        .is_ok_and(|n| n == b"Image")
+                })
+            })
+            .count();
+        assert_eq!(
+            images > 0,
+            kind == FigureKind::Micrograph,
+            "{}",
+            kind.name()
+        );
     }
 }
 
@@ -111,8 +130,16 @@ fn solvus_figure_draws_the_grains_results() {
         panic!("solvus figure has axes")
     };
     // both models named in the legend
-    assert!(fig.legend.iter().any(|e| e.label.contains("Haselton et al. (1983)")));
-    assert!(fig.legend.iter().any(|e| e.label.contains("Thompson & Waldbaum (1969)")));
+    assert!(
+        fig.legend
+            .iter()
+            .any(|e| e.label.contains("Haselton et al. (1983)"))
+    );
+    assert!(
+        fig.legend
+            .iter()
+            .any(|e| e.label.contains("Thompson & Waldbaum (1969)"))
+    );
     // the bulk marker sits at the median minimum temperature, inside the axes
     let t = g.min_temperature().unwrap();
     let bulk = fig
@@ -192,7 +219,11 @@ fn histogram_and_ternary_content() {
         .map(|m| m.points.len())
         .sum();
     assert_eq!(drawn, spots);
-    assert!(tern.legend.iter().any(|e| e.label.contains("Fuhrman & Lindsley (1988)")));
+    assert!(
+        tern.legend
+            .iter()
+            .any(|e| e.label.contains("Fuhrman & Lindsley (1988)"))
+    );
 }
 
 #[test]

@@ -48,7 +48,10 @@ pub fn bin_counts(values: &[f64], edges: &[f64]) -> Vec<usize> {
         if v < lo || v > hi {
             continue;
         }
-        let i = edges.partition_point(|e| *e <= v).saturating_sub(1).min(bins - 1);
+        let i = edges
+            .partition_point(|e| *e <= v)
+            .saturating_sub(1)
+            .min(bins - 1);
         counts[i] += 1;
     }
     counts
@@ -60,7 +63,10 @@ pub fn bin_counts(values: &[f64], edges: &[f64]) -> Vec<usize> {
 ///
 /// # Errors
 /// [`FigureError::Grain`] when fewer than two draws gave a temperature.
-pub fn min_temperature_figure(grain: &GrainResult, size: FigureSize) -> Result<Figure, FigureError> {
+pub fn min_temperature_figure(
+    grain: &GrainResult,
+    size: FigureSize,
+) -> Result<Figure, FigureError> {
     let id = format!("{}/{}", grain.sample, grain.grain);
     let mut t: Vec<f64> = grain
         .monte_carlo

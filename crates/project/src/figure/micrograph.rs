@@ -112,12 +112,11 @@ pub fn micrograph_figure(
         .map_err(|e| input(e.to_string()))?;
     let mut settings = spec.segmentation.clone();
     if let Some(size) = spec.pixel_size_um {
-        settings.pixel_size = Some(
-            micrograph::calibration::PixelSize::new(size).map_err(|e| input(e.to_string()))?,
-        );
+        settings.pixel_size =
+            Some(micrograph::calibration::PixelSize::new(size).map_err(|e| input(e.to_string()))?);
     }
-    let seg = segment(&plane, &region, &settings, &Control::none())
-        .map_err(|e| input(e.to_string()))?;
+    let seg =
+        segment(&plane, &region, &settings, &Control::none()).map_err(|e| input(e.to_string()))?;
     let phase_of_class: Vec<Option<usize>> = spec
         .class_phases
         .iter()
@@ -194,7 +193,11 @@ pub fn micrograph_figure(
         (&spec.region.exclude, Dash::Dashed),
     ] {
         for poly in polys.iter() {
-            let mut pts: Vec<[f64; 2]> = poly.0.iter().map(|p| [p[0] * scale, p[1] * scale]).collect();
+            let mut pts: Vec<[f64; 2]> = poly
+                .0
+                .iter()
+                .map(|p| [p[0] * scale, p[1] * scale])
+                .collect();
             if let Some(first) = pts.first().copied() {
                 pts.push(first);
             }

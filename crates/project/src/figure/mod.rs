@@ -576,7 +576,11 @@ pub fn nice_ticks(min: f64, max: f64, target: usize) -> Vec<Tick> {
     (first..=last)
         .map(|k| {
             let value = k as f64 * step;
-            let value = if value.abs() < step * 1e-9 { 0.0 } else { value };
+            let value = if value.abs() < step * 1e-9 {
+                0.0
+            } else {
+                value
+            };
             Tick {
                 value,
                 label: format!("{value:.decimals$}"),
@@ -630,7 +634,10 @@ mod tests {
         let t = nice_ticks(0.0, 1.0, 6);
         let v: Vec<f64> = t.iter().map(|t| t.value).collect();
         assert_eq!(v.len(), 6);
-        assert!((v[1] - 0.2).abs() < 1e-12, "step 0.2 for [0, 1] at ~6 ticks");
+        assert!(
+            (v[1] - 0.2).abs() < 1e-12,
+            "step 0.2 for [0, 1] at ~6 ticks"
+        );
         assert_eq!(t[5].label, "1.0");
         let t = nice_ticks(350.0, 1020.0, 6);
         assert_eq!(t[0].value, 400.0);

@@ -23,10 +23,6 @@ pub const FONT_BYTES: &[u8] = include_bytes!("../../../../assets/fonts/DejaVuSan
 pub const FONT_FAMILY: &str = "DejaVu Sans";
 
 const PT_PER_MM: f64 = 72.0 / 25.4;
-/// Average advance of DejaVu Sans in em, for laying out legends (measured glyphs would be
-/// exact; the estimate errs wide so boxes never clip text).
-const EM_ADVANCE: f64 = 0.6;
-
 /// The placement of the plot area inside the page, in points (y down).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Layout {
@@ -58,19 +54,77 @@ impl Layout {
     }
 }
 
-fn text_width(text: &str, size: f64) -> f64 {
-    super::plain_text(text).chars().count() as f64 * EM_ADVANCE * size
+fn font_face() -> Option<&'static ttf_parser::Face<'static>> {
+    static FACE: OnceLock<Option<ttf_parser::Face<'static>>> = OnceLock::new();
+    FACE.get_or_init(|| ttf_parser::Face::parse(FONT_BYTES, 0).ok())
+        .as_ref()
 }
 
-fn legend_metrics(fig: &Figure) -> (f64, f64, usize) {
-    // (entry width, row height, columns for a legend below)
+/// Width of a text in the bundled font, pt (sub/superscripts at their smaller size), from the
+/// font's horizontal advances (kerning ignored: a fraction of a point).
+pub fn text_width(text: &str, size: f64) -> f64 {
+    let Some(face) = font_face() else {
+        return super::plain_text(text).chars().count() as f64 * 0.6 * size;
+    };
+    let em = f64::from(face.units_per_em());
+    text_runs(text)
+        .iter()
+        .map(|(run, script)| {
+            let s = if *script == Script::Normal {
+                size
+            } else {
+                size * 0.72
+            };
+            run.chars()
+                .map(|c| {
+                    face.glyph_index(c)
+                        .and_then(|g| face.glyph_hor_advance(g))
+                        .map_or(0.6 * em, f64::from)
+                })
+                .sum::<f64>()
+                / em
+                * s
+        })
+        .sum()
+}
+
+/// Legend entries laid out in columns (column-major): column count, rows, each column's width.
+fn legend_columns(fig: &Figure, avail: f64) -> (usize, usize, Vec<f64>) {
+    let f = fig.font_size_pt;
+    let widths: Vec<f64> = fig
+        .legend
+        .iter()
+        .map(|e| text_width(&e.label, f) + 20.0 + 10.0)
+        .collect();
+    let n = widths.len().max(1);
+    for cols in (1..=n.min(4)).rev() {
+        let rows = n.div_ceil(cols);
+        let col_w: Vec<f64> = (0..cols)
+            .map(|c| {
+                widths
+                    .iter()
+                    .skip(c * rows)
+                    .take(rows)
+                    .copied()
+                    .fold(0.0, f64::max)
+            })
+            .collect();
+        if col_w.iter().sum::<f64>() <= avail || cols == 1 {
+            return (cols, rows, col_w);
+        }
+    }
+    (1, n, vec![avail])
+}
+
+fn legend_metrics(fig: &Figure) -> (f64, f64) {
+    // (widest entry, row height)
     let f = fig.font_size_pt;
     let widest = fig
         .legend
         .iter()
         .map(|e| text_width(&e.label, f))
         .fold(0.0, f64::max);
-    (widest + 20.0, f * 1.5, 1)
+    (widest + 20.0, f * 1.5)
 }
 
 /// Where the plot area goes for a figure.
@@ -79,10 +133,9 @@ pub fn layout(fig: &Figure) -> Layout {
     let height_pt = fig.height_mm * PT_PER_MM;
     let f = fig.font_size_pt;
     let title_h = if fig.title.is_empty() { 0.0 } else { f * 1.8 };
-    let (entry_w, row_h, _) = legend_metrics(fig);
+    let (_, row_h) = legend_metrics(fig);
     let below_h = if fig.legend_place == LegendPlace::Below && !fig.legend.is_empty() {
-        let cols = ((width_pt - 12.0) / entry_w).floor().max(1.0) as usize;
-        let rows = fig.legend.len().div_ceil(cols);
+        let (_, rows, _) = legend_columns(fig, width_pt - 12.0);
         rows as f64 * row_h + f
     } else {
         0.0
@@ -556,7 +609,7 @@ fn legend_svg(out: &mut String, fig: &Figure, lay: &Layout) {
         return;
     }
     let f = fig.font_size_pt;
-    let (entry_w, row_h, _) = legend_metrics(fig);
+    let (entry_w, row_h) = legend_metrics(fig);
     let positions: Vec<[f64; 2]> = match fig.legend_place {
         LegendPlace::TopLeft | LegendPlace::TopRight => {
             let box_w = entry_w + 6.0;
@@ -580,16 +633,14 @@ fn legend_svg(out: &mut String, fig: &Figure, lay: &Layout) {
                 .collect()
         }
         LegendPlace::Below => {
-            let cols = ((lay.width_pt - 12.0) / entry_w).floor().max(1.0) as usize;
-            let y0 = lay.height_pt
-                - (fig.legend.len().div_ceil(cols) as f64) * row_h
-                - f * 0.5;
-            let col_w = (lay.width_pt - 12.0) / cols as f64;
+            let (_, rows, col_w) = legend_columns(fig, lay.width_pt - 12.0);
+            let y0 = lay.height_pt - rows as f64 * row_h - f * 0.5;
             (0..fig.legend.len())
                 .map(|i| {
+                    let c = i / rows;
                     [
-                        6.0 + (i % cols) as f64 * col_w,
-                        y0 + row_h * ((i / cols) as f64 + 0.5),
+                        6.0 + col_w[..c].iter().sum::<f64>(),
+                        y0 + row_h * ((i % rows) as f64 + 0.5),
                     ]
                 })
                 .collect()
@@ -639,10 +690,14 @@ pub fn to_svg(fig: &Figure) -> String {
         n(lay.plot_height)
     );
     if !fig.title.is_empty() {
+        let title_x = match fig.frame {
+            Frame::Cartesian { .. } => lay.left,
+            Frame::Plain { .. } => 6.0,
+        };
         text_svg(
             &mut out,
             &fig.title,
-            lay.left,
+            title_x,
             f * 1.3,
             f * 1.1,
             palette::BLACK,
@@ -788,10 +843,8 @@ pub fn to_png(fig: &Figure, dpi: f64) -> Result<Vec<u8>, FigureError> {
         .ok_or_else(|| FigureError::Render(format!("cannot allocate {w} x {h} pixels")))?;
     pixmap.fill(tiny_skia::Color::WHITE);
     let size = tree.size();
-    let transform = tiny_skia::Transform::from_scale(
-        w as f32 / size.width(),
-        h as f32 / size.height(),
-    );
+    let transform =
+        tiny_skia::Transform::from_scale(w as f32 / size.width(), h as f32 / size.height());
     resvg::render(&tree, transform, &mut pixmap.as_mut());
     // opaque white background: premultiplied and straight RGBA are the same
     encode_png(w, h, pixmap.data(), Some(dpi)).map_err(FigureError::Render)

@@ -6,8 +6,8 @@ use solvus::units::{bar_from_kbar, celsius_from_kelvin, kelvin_from_celsius};
 use solvus::{SolutionModel, solvus_curve};
 
 use super::{
-    Anchor, Axis, dash_for, Dash, ErrorBar, Figure, FigureError, FigureSize, Frame, Item, Label,
-    LegendEntry, LegendPlace, LegendSymbol, MarkerShape, Markers, Polyline, Style, palette,
+    Anchor, Axis, Dash, ErrorBar, Figure, FigureError, FigureSize, Frame, Item, Label, LegendEntry,
+    LegendPlace, LegendSymbol, MarkerShape, Markers, Polyline, Style, dash_for, palette,
 };
 use crate::run::GrainResult;
 
@@ -115,7 +115,13 @@ pub fn solvus_figure(
     let t_min = grain.and_then(|g| g.min_temperature());
     let temps_sorted: Vec<f64> = grain
         .map(|g| {
-            let mut t: Vec<f64> = g.monte_carlo.temperature_draws.iter().flatten().copied().collect();
+            let mut t: Vec<f64> = g
+                .monte_carlo
+                .temperature_draws
+                .iter()
+                .flatten()
+                .copied()
+                .collect();
             t.sort_by(f64::total_cmp);
             t
         })
@@ -133,11 +139,16 @@ pub fn solvus_figure(
         .unwrap_or(((lowest / 50.0).floor() * 50.0).max(0.0));
     let mut curves = Vec::new();
     for model in models {
-        let curve = solvus_curve(model, p_bar, options.points.max(10), kelvin_from_celsius(t_lo).max(1.0))
-            .map_err(|e| FigureError::Model {
-                model: model.id.clone(),
-                message: e.to_string(),
-            })?;
+        let curve = solvus_curve(
+            model,
+            p_bar,
+            options.points.max(10),
+            kelvin_from_celsius(t_lo).max(1.0),
+        )
+        .map_err(|e| FigureError::Model {
+            model: model.id.clone(),
+            message: e.to_string(),
+        })?;
         curves.push(curve);
     }
     let t_top = curves
@@ -179,9 +190,8 @@ pub fn solvus_figure(
             points: binodal,
             style,
         }));
-        let name = format!("{} binodal", short_citation(model));
         fig.legend.push(LegendEntry {
-            label: name,
+            label: short_citation(model),
             symbol: LegendSymbol::Line(style),
         });
         if options.spinodal {
@@ -203,10 +213,6 @@ pub fn solvus_figure(
                 points: sp,
                 style: sp_style,
             }));
-            fig.legend.push(LegendEntry {
-                label: format!("{} spinodal", short_citation(model)),
-                symbol: LegendSymbol::Line(sp_style),
-            });
         }
         let top = [
             curve.critical.x_or,
@@ -229,6 +235,12 @@ pub fn solvus_figure(
             anchor: Anchor::Middle,
             halo: true,
         }));
+    }
+    if options.spinodal {
+        fig.legend.push(LegendEntry {
+            label: "spinodal".into(),
+            symbol: LegendSymbol::Line(Style::dashed(palette::BLACK, 0.6, Dash::Dotted)),
+        });
     }
     fig.legend.push(LegendEntry {
         label: "consolute point".into(),
@@ -279,7 +291,7 @@ fn grain_overlay(fig: &mut Figure, g: &GrainResult, pair_t: Option<f64>, temps_s
         }
         fig.items.push(Item::Label(Label {
             at: [0.5 * (xh + xl), t],
-            offset_pt: [0.0, -9.0],
+            offset_pt: [0.0, 6.0],
             text: format!("lamella pair {t:.0} °C"),
             size_pt: f,
             colour: ink,
@@ -287,7 +299,7 @@ fn grain_overlay(fig: &mut Figure, g: &GrainResult, pair_t: Option<f64>, temps_s
             halo: true,
         }));
         fig.legend.push(LegendEntry {
-            label: format!("{} (± 2 s.d.)", host.label),
+            label: format!("{} ± 2 s.d.", host.label),
             symbol: LegendSymbol::Marker {
                 shape: MarkerShape::Square,
                 colour: ink,
@@ -295,7 +307,7 @@ fn grain_overlay(fig: &mut Figure, g: &GrainResult, pair_t: Option<f64>, temps_s
             },
         });
         fig.legend.push(LegendEntry {
-            label: format!("{} (± 2 s.d.)", lamella.label),
+            label: format!("{} ± 2 s.d.", lamella.label),
             symbol: LegendSymbol::Marker {
                 shape: MarkerShape::TriangleUp,
                 colour: ink,
@@ -322,23 +334,29 @@ fn grain_overlay(fig: &mut Figure, g: &GrainResult, pair_t: Option<f64>, temps_s
     let t_ci = if temps_sorted.is_empty() {
         (s.p2_5, s.p97_5)
     } else {
-        (percentile(temps_sorted, 2.5), percentile(temps_sorted, 97.5))
+        (
+            percentile(temps_sorted, 2.5),
+            percentile(temps_sorted, 97.5),
+        )
     };
     let mark = Style::dashed(palette::VERMILLION, 0.7, Dash::Dashed);
     fig.items.push(Item::Line(Polyline {
         points: vec![[0.0, s.median], [1.0, s.median]],
         style: mark,
     }));
+    // the label on the side away from the bulk point
+    let (at_x, dx, anchor) = if x_med > 0.5 {
+        (0.0, 3.0, Anchor::Start)
+    } else {
+        (1.0, -3.0, Anchor::End)
+    };
     fig.items.push(Item::Label(Label {
-        at: [1.0, s.median],
-        offset_pt: [-3.0, 5.0],
-        text: format!(
-            "T_{{min}} {:.0} °C ({:.0}–{:.0})",
-            s.median, t_ci.0, t_ci.1
-        ),
+        at: [at_x, s.median],
+        offset_pt: [dx, 6.0],
+        text: format!("T_{{min}} {:.0} °C ({:.0}–{:.0})", s.median, t_ci.0, t_ci.1),
         size_pt: f,
         colour: palette::VERMILLION,
-        anchor: Anchor::End,
+        anchor,
         halo: true,
     }));
     fig.items.push(Item::ErrorBar(ErrorBar {
@@ -356,7 +374,7 @@ fn grain_overlay(fig: &mut Figure, g: &GrainResult, pair_t: Option<f64>, temps_s
         opacity: 1.0,
     }));
     fig.legend.push(LegendEntry {
-        label: "reintegrated bulk (95 % interval)".into(),
+        label: "bulk, 95 % interval".into(),
         symbol: LegendSymbol::Marker {
             shape: MarkerShape::Diamond,
             colour: palette::BLACK,
@@ -364,7 +382,7 @@ fn grain_overlay(fig: &mut Figure, g: &GrainResult, pair_t: Option<f64>, temps_s
         },
     });
     fig.legend.push(LegendEntry {
-        label: "minimum crystallisation T".into(),
+        label: "min. crystallisation T".into(),
         symbol: LegendSymbol::Line(mark),
     });
 }
@@ -439,18 +457,29 @@ mod tests {
             let t_k = kelvin_from_celsius(p[1]);
             match solvus::binodal(&model, t_k, 1000.0).unwrap() {
                 solvus::BinodalOutcome::Gap(b) => {
-                    let d = (p[0] - b.x_or_na_limb).abs().min((p[0] - b.x_or_k_limb).abs());
+                    let d = (p[0] - b.x_or_na_limb)
+                        .abs()
+                        .min((p[0] - b.x_or_k_limb).abs());
                     assert!(d < 1e-6, "{p:?} vs {b:?}");
                 }
                 other => panic!("{other:?}"),
             }
         }
         // the legend names the model; the axis range holds the curve
-        assert!(fig.legend.iter().any(|e| e.label.contains("Haselton et al. (1983)")));
+        assert!(
+            fig.legend
+                .iter()
+                .any(|e| e.label.contains("Haselton et al. (1983)"))
+        );
         let Frame::Cartesian { x, y } = &fig.frame else {
             panic!()
         };
-        assert!(binodal.points.iter().all(|p| x.contains(p[0]) && y.contains(p[1])));
+        assert!(
+            binodal
+                .points
+                .iter()
+                .all(|p| x.contains(p[0]) && y.contains(p[1]))
+        );
     }
 
     #[test]

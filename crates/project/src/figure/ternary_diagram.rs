@@ -31,6 +31,14 @@ pub fn ternary_xy(x_ab: f64, x_or: f64, x_an: f64) -> [f64; 2] {
     [or + 0.5 * an, H * an]
 }
 
+/// Distance of a plane point from the nearest edge of the triangle.
+fn edge_distance(p: [f64; 2]) -> f64 {
+    let an = p[1] / H;
+    let or = p[0] - 0.5 * an;
+    let ab = 1.0 - or - an;
+    ab.min(or).min(an) * H
+}
+
 fn xy(c: &[f64]) -> [f64; 2] {
     ternary_xy(
         c.first().copied().unwrap_or(0.0),
@@ -221,6 +229,7 @@ pub fn ternary_figure(
     let p_bar = bar_from_kbar(pressure_kbar);
     let iso_style = Style::solid(palette::BLUE, 0.8);
     let n_iso = ((t1 - t0) / options.interval_c).floor() as usize;
+    let mut placed: Vec<[f64; 2]> = Vec::new();
     for k in 0..=n_iso {
         let t_c = t0 + k as f64 * options.interval_c;
         let iso = ternary_isotherm(model, kelvin_from_celsius(t_c), p_bar).map_err(|e| {
@@ -229,7 +238,13 @@ pub fn ternary_figure(
                 message: format!("isotherm {t_c} °C: {e}"),
             }
         })?;
-        let bands = iso.tie_lines.iter().map(|t| t.band).max().map_or(0, |b| b + 1);
+        let bands = iso
+            .tie_lines
+            .iter()
+            .map(|t| t.band)
+            .max()
+            .map_or(0, |b| b + 1);
+        let first_item = fig.items.len();
         for band in 0..bands {
             let lines: Vec<_> = iso.tie_lines.iter().filter(|t| t.band == band).collect();
             let na: Vec<[f64; 2]> = lines.iter().map(|t| xy(&t.na_rich.as_array())).collect();
@@ -253,18 +268,34 @@ pub fn ternary_figure(
                     style: iso_style,
                 }));
             }
-            // label at the K-rich end of the band's first tie-line (on an edge)
-            if let Some(first) = lines.first() {
-                fig.items.push(Item::Label(Label {
-                    at: xy(&first.k_rich.as_array()),
-                    offset_pt: [0.0, 3.0],
-                    text: format!("{t_c:.0}"),
-                    size_pt: f * 0.85,
-                    colour: palette::BLUE,
-                    anchor: Anchor::Middle,
-                    halo: true,
-                }));
-            }
+        }
+        // label at the isotherm's most interior vertex (its "nose"), away from the edges
+        let labels_at = fig.items[first_item..]
+            .iter()
+            .filter_map(|i| match i {
+                Item::Line(l) => Some(l.points.iter().copied()),
+                _ => None,
+            })
+            .flatten()
+            .max_by(|a, b| edge_distance(*a).total_cmp(&edge_distance(*b)));
+        // an isotherm whose nose is too close to a labelled one stays unlabelled (the spacing
+        // gives its temperature)
+        if let Some(at) = labels_at.filter(|p| {
+            placed
+                .iter()
+                .all(|q: &[f64; 2]| (p[0] - q[0]).hypot(p[1] - q[1]) > 0.06)
+        }) {
+            placed.push(at);
+            // nudged into the one-phase field inside the curve
+            fig.items.push(Item::Label(Label {
+                at,
+                offset_pt: [3.0, 3.0],
+                text: format!("{t_c:.0}"),
+                size_pt: f * 0.85,
+                colour: palette::BLUE,
+                anchor: Anchor::Start,
+                halo: true,
+            }));
         }
         if let Some(tri) = iso.three_phase {
             let mut pts: Vec<[f64; 2]> = tri.iter().map(|c| xy(&c.as_array())).collect();
@@ -276,11 +307,7 @@ pub fn ternary_figure(
         }
     }
     fig.legend.push(LegendEntry {
-        label: format!(
-            "isotherms every {:.0} °C, {}",
-            options.interval_c,
-            short_citation(model)
-        ),
+        label: format!("isotherms, {}", short_citation(model)),
         symbol: LegendSymbol::Line(iso_style),
     });
     if let Some(g) = grain {
@@ -309,11 +336,7 @@ fn grain_items(fig: &mut Figure, g: &GrainResult, spots: &[SpotPoint], cloud_poi
             opacity: 0.5,
         }));
         fig.legend.push(LegendEntry {
-            label: format!(
-                "bulk, Monte Carlo draws ({} of {})",
-                draws.len().div_ceil(step),
-                draws.len()
-            ),
+            label: format!("bulk, {} Monte Carlo draws", draws.len().div_ceil(step)),
             symbol: LegendSymbol::Marker {
                 shape: MarkerShape::Circle,
                 colour: palette::GREY,
@@ -377,7 +400,7 @@ fn grain_items(fig: &mut Figure, g: &GrainResult, spots: &[SpotPoint], cloud_poi
             opacity: 1.0,
         }));
         fig.legend.push(LegendEntry {
-            label: "reintegrated bulk (median)".into(),
+            label: "bulk (median)".into(),
             symbol: LegendSymbol::Marker {
                 shape: MarkerShape::Diamond,
                 colour: palette::BLACK,
@@ -396,7 +419,8 @@ mod tests {
         // Source: barycentric coordinates of an equilateral triangle of unit side (elementary
         // geometry): vertices at (0,0), (1,0), (1/2, √3/2); the centroid (1/3 each) at
         // (1/2, √3/6); the midpoint of Ab–Or at (1/2, 0). Tolerance: rounding only.
-        let close = |a: [f64; 2], b: [f64; 2]| (a[0] - b[0]).abs() < 1e-12 && (a[1] - b[1]).abs() < 1e-12;
+        let close =
+            |a: [f64; 2], b: [f64; 2]| (a[0] - b[0]).abs() < 1e-12 && (a[1] - b[1]).abs() < 1e-12;
         assert!(close(ternary_xy(1.0, 0.0, 0.0), [0.0, 0.0]));
         assert!(close(ternary_xy(0.0, 1.0, 0.0), [1.0, 0.0]));
         assert!(close(ternary_xy(0.0, 0.0, 1.0), [0.5, 3f64.sqrt() / 2.0]));
