@@ -11,10 +11,10 @@ use reintegration::MineralSystem;
 
 use crate::command::Command;
 use crate::document::{Document, GrainRef, MicrographRef};
+use crate::figures::{FigureJob, FigureSet};
 use crate::files::{self, PathPrompt, PromptPurpose};
 use crate::jobs::{ClassData, ImageData, ImageJob, RunJob, image_key};
 use crate::panels;
-use crate::plots::SolvusLine;
 use crate::stages;
 
 /// How the workbench starts.
@@ -110,6 +110,8 @@ pub enum Action {
     OpenPath(PathBuf),
     /// Open the bundled demo.
     OpenDemo,
+    /// Ask for a file to export a figure of the selected grain to.
+    ExportFigure(project::figure::FigureKind),
 }
 
 /// The shortcuts of the common actions (shown in menus and tooltips).
@@ -164,10 +166,9 @@ pub struct View<'a> {
     pub image_busy: Option<f32>,
     /// Why the image could not be loaded or classified.
     pub image_error: Option<&'a str>,
-    /// The solvus of the project's model and pressure.
-    pub solvus: Option<&'a Result<SolvusLine, String>>,
-    /// Solvi of the other built-in models, for comparison.
-    pub other_solvi: &'a [SolvusLine],
+    /// The figures of the selected grain (possibly of an earlier state while new ones are
+    /// drawn).
+    pub figures: Option<&'a FigureSet>,
     /// Spot analyses read from the project's files.
     pub spot_tables: &'a [(MineralSystem, Result<SpotTable, String>)],
 }
@@ -218,8 +219,9 @@ pub struct Workbench {
     classes: Option<ClassData>,
     image_error: Option<(String, String)>,
     image_job: Option<ImageJob>,
-    solvus: Option<((String, u64), Result<SolvusLine, String>)>,
-    other_solvi: Option<((String, u64), Vec<SolvusLine>)>,
+    figures: Option<FigureSet>,
+    figure_job: Option<FigureJob>,
+    results_serial: u64,
     spot_tables: Vec<(MineralSystem, Result<SpotTable, String>)>,
     image_stage: stages::image::ImageStage,
     phases_stage: stages::phases::PhasesStage,
@@ -250,8 +252,9 @@ impl Workbench {
             classes: None,
             image_error: None,
             image_job: None,
-            solvus: None,
-            other_solvi: None,
+            figures: None,
+            figure_job: None,
+            results_serial: 0,
             spot_tables: Vec::new(),
             image_stage: Default::default(),
             phases_stage: Default::default(),
@@ -307,7 +310,7 @@ impl Workbench {
 
     /// A run or an image job is still going on.
     pub fn busy(&self) -> bool {
-        self.run_job.is_some() || self.image_job.is_some()
+        self.run_job.is_some() || self.image_job.is_some() || self.figure_job.is_some()
     }
 
     /// The phase fractions the Phases stage shows for the selected micrograph (grain phase
@@ -410,6 +413,45 @@ impl Workbench {
         }
     }
 
+    /// Write a figure of the selected grain, in the format its extension names (SVG, PNG at
+    /// 300 dpi, PDF).
+    pub fn export_figure(&mut self, kind: project::figure::FigureKind, path: &std::path::Path) {
+        use project::figure::render::{Format, encode};
+        let Some(fig) = self
+            .figures
+            .as_ref()
+            .filter(|f| f.grain == self.grain)
+            .and_then(|f| f.get(kind))
+        else {
+            self.status = "that figure is not drawn yet".into();
+            return;
+        };
+        let fig = match fig {
+            Ok(f) => f,
+            Err(e) => {
+                self.status = format!("no figure to export: {e}");
+                return;
+            }
+        };
+        let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("");
+        let Some(format) = Format::from_extension(ext) else {
+            self.status = format!("{}: name the file .svg, .png or .pdf", path.display());
+            return;
+        };
+        self.status = match encode(fig, format, 300.0)
+            .map_err(|e| e.to_string())
+            .and_then(|bytes| project::write_atomically(path, &bytes).map_err(|e| e.to_string()))
+        {
+            Ok(()) => format!("exported {}", path.display()),
+            Err(e) => format!("not exported: {e}"),
+        };
+    }
+
+    /// Whether the figures of the selected grain are drawn and current.
+    pub fn figures_ready(&self) -> bool {
+        self.figure_job.is_none() && self.figures.as_ref().is_some_and(|f| f.grain == self.grain)
+    }
+
     fn apply(&mut self, action: Action, ctx: &egui::Context) {
         match action {
             Action::Edit(command) => {
@@ -466,6 +508,30 @@ impl Workbench {
             }
             Action::OpenPath(p) => self.open_path(p),
             Action::OpenDemo => self.open_path(crate::demo_project_path()),
+            Action::ExportFigure(kind) => {
+                let stem = self
+                    .grain
+                    .and_then(|g| {
+                        Some(format!(
+                            "{}_{}",
+                            self.doc.sample(g)?.id,
+                            self.doc.grain(g)?.id
+                        ))
+                    })
+                    .unwrap_or_else(|| "figure".into());
+                let folder = self
+                    .doc
+                    .path
+                    .as_ref()
+                    .and_then(|p| p.parent())
+                    .map(|p| p.to_path_buf())
+                    .unwrap_or_default();
+                let name = format!("{stem}-{}.svg", kind.name());
+                self.prompt = Some(PathPrompt::new(
+                    PromptPurpose::Export(kind),
+                    Some(folder.join(name)),
+                ));
+            }
         }
     }
 
@@ -488,6 +554,7 @@ impl Workbench {
                         }
                     );
                     self.results = Some(Results { run, revision });
+                    self.results_serial += 1;
                     self.run_error = None;
                 }
                 Err(e) => {
@@ -544,24 +611,53 @@ impl Workbench {
                 }
             }
         }
-        // The solvus of the current model and pressure.
-        let settings = &self.doc.project.settings;
-        let key = (
-            settings.feldspar_model.clone(),
-            settings.pressure_kbar.to_bits(),
-        );
-        if self.solvus.as_ref().map(|(k, _)| k) != Some(&key) {
-            let line = SolvusLine::trace(&settings.feldspar_model, settings.pressure_kbar);
-            self.solvus = Some((key.clone(), line));
-        }
-        if self.temperature_stage.compare && self.other_solvi.as_ref().map(|(k, _)| k) != Some(&key)
+        // The figures of the selected grain.
+        if let Some(job) = &self.figure_job
+            && let Some(set) = job.poll()
         {
-            let others = solvus::BUILTIN_IDS
+            self.figure_job = None;
+            self.figures = Some(set);
+        }
+        let settings = &self.doc.project.settings;
+        let extra: Vec<String> = if self.temperature_stage.compare {
+            solvus::BUILTIN_IDS
                 .iter()
                 .filter(|id| **id != settings.feldspar_model)
-                .filter_map(|id| SolvusLine::trace(id, settings.pressure_kbar).ok())
-                .collect();
-            self.other_solvi = Some((key, others));
+                .map(|id| id.to_string())
+                .collect()
+        } else {
+            Vec::new()
+        };
+        let key = format!(
+            "{:?}|{}|{}|{}|{:?}",
+            self.grain, self.results_serial, settings.feldspar_model, settings.pressure_kbar, extra
+        );
+        let have = self.figures.as_ref().is_some_and(|f| f.key == key)
+            || self.figure_job.as_ref().is_some_and(|j| j.key == key);
+        if !have {
+            let grain_result = self.grain.and_then(|g| {
+                let sample = self.doc.sample(g)?;
+                let grain = self.doc.grain(g)?;
+                self.results
+                    .as_ref()?
+                    .run
+                    .grains
+                    .iter()
+                    .find(|r| r.sample == sample.id && r.grain == grain.id)
+                    .cloned()
+            });
+            match FigureJob::start(
+                ctx.clone(),
+                key,
+                self.grain,
+                self.doc.project.clone(),
+                self.doc.path_or_default(),
+                grain_result,
+                extra,
+            ) {
+                Ok(job) => self.figure_job = Some(job),
+                Err(e) => self.status = e,
+            }
         }
         if self.busy() {
             ctx.request_repaint_after(std::time::Duration::from_millis(100));
@@ -657,11 +753,7 @@ impl Workbench {
                 .as_ref()
                 .filter(|(k, _)| Some(k) == wanted_key.as_ref())
                 .map(|(_, e)| e.as_str()),
-            solvus: self.solvus.as_ref().map(|(_, s)| s),
-            other_solvi: match (&self.other_solvi, self.temperature_stage.compare) {
-                (Some((_, v)), true) => v,
-                _ => &[],
-            },
+            figures: self.figures.as_ref(),
             spot_tables: &self.spot_tables,
         };
 
@@ -718,6 +810,10 @@ impl Workbench {
                 files::PromptOutcome::SaveAs(p) => {
                     self.prompt = None;
                     self.save_to(p);
+                }
+                files::PromptOutcome::Export(kind, p) => {
+                    self.prompt = None;
+                    self.export_figure(kind, &p);
                 }
                 files::PromptOutcome::Cancel => self.prompt = None,
                 files::PromptOutcome::Pending => {}

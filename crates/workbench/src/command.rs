@@ -144,7 +144,7 @@ impl Command {
                 project.settings.feldspar_model = id;
             }
             Command::SetPressure(p) => {
-                if !(p.is_finite() && p >= 0.0 && p <= 100.0) {
+                if !(0.0..=100.0).contains(&p) {
                     return Err(format!("pressure {p} kbar must be between 0 and 100"));
                 }
                 project.settings.pressure_kbar = p;

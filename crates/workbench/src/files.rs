@@ -56,6 +56,8 @@ pub enum PromptPurpose {
     Open,
     /// Save the project under a new name.
     SaveAs,
+    /// Export a figure.
+    Export(project::figure::FigureKind),
 }
 
 /// What the prompt ended with.
@@ -68,6 +70,8 @@ pub enum PromptOutcome {
     Open(PathBuf),
     /// Save to this file.
     SaveAs(PathBuf),
+    /// Export the figure to this file.
+    Export(project::figure::FigureKind, PathBuf),
 }
 
 /// A small window with a path field and a "Browse…" button.
@@ -97,13 +101,18 @@ impl PathPrompt {
         let spawned = std::thread::Builder::new()
             .name("consolute-file-dialog".into())
             .spawn(move || {
-                let mut dialog = rfd::FileDialog::new().add_filter("Consolute project", &["json"]);
+                let mut dialog = match purpose {
+                    PromptPurpose::Export(_) => {
+                        rfd::FileDialog::new().add_filter("Figure", &["svg", "png", "pdf"])
+                    }
+                    _ => rfd::FileDialog::new().add_filter("Consolute project", &["json"]),
+                };
                 if let Some(dir) = start.parent().filter(|d| d.is_dir()) {
                     dialog = dialog.set_directory(dir);
                 }
                 let chosen = match purpose {
                     PromptPurpose::Open => dialog.pick_file(),
-                    PromptPurpose::SaveAs => dialog.save_file(),
+                    PromptPurpose::SaveAs | PromptPurpose::Export(_) => dialog.save_file(),
                 };
                 let _ = tx.send(chosen);
                 ctx.request_repaint();
@@ -135,6 +144,7 @@ impl PathPrompt {
         let title = match self.purpose {
             PromptPurpose::Open => "Open project",
             PromptPurpose::SaveAs => "Save project as",
+            PromptPurpose::Export(_) => "Export figure",
         };
         let mut outcome = PromptOutcome::Pending;
         let mut open = true;
@@ -143,7 +153,10 @@ impl PathPrompt {
             .resizable(false)
             .open(&mut open)
             .show(ctx, |ui| {
-                let l = ui.label("Project file (.json):");
+                let l = ui.label(match self.purpose {
+                    PromptPurpose::Export(_) => "Figure file (.svg, .png or .pdf):",
+                    _ => "Project file (.json):",
+                });
                 let edit = ui
                     .add(
                         egui::TextEdit::singleline(&mut self.text)
@@ -167,6 +180,7 @@ impl PathPrompt {
                     let verb = match self.purpose {
                         PromptPurpose::Open => "Open",
                         PromptPurpose::SaveAs => "Save",
+                        PromptPurpose::Export(_) => "Export",
                     };
                     if ui.button(verb).clicked() || entered {
                         let path = PathBuf::from(self.text.trim());
@@ -178,6 +192,7 @@ impl PathPrompt {
                             outcome = match self.purpose {
                                 PromptPurpose::Open => PromptOutcome::Open(path),
                                 PromptPurpose::SaveAs => PromptOutcome::SaveAs(path),
+                                PromptPurpose::Export(kind) => PromptOutcome::Export(kind, path),
                             };
                         }
                     }

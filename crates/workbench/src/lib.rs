@@ -26,10 +26,10 @@
 pub mod app;
 pub mod command;
 pub mod document;
+mod figures;
 mod files;
 mod jobs;
 mod panels;
-mod plots;
 mod stages;
 mod tiles;
 
@@ -51,6 +51,27 @@ pub enum LaunchError {
         "the workbench window could not open: {0}; without a window, use `consolute run PROJECT --out DIR`"
     )]
     Window(String),
+}
+
+/// DejaVu Sans, bundled in `assets/fonts` (the figures use it too): added after egui's own
+/// fonts so that marks and symbols (✔ ⚠ ○ ▶ ∓ ≥) have glyphs.
+const DEJAVU_SANS: &[u8] = include_bytes!("../../../assets/fonts/DejaVuSans.ttf");
+
+/// Install the workbench's fonts in a context (egui's defaults, then DejaVu Sans as fallback).
+pub fn install_fonts(ctx: &egui::Context) {
+    let mut fonts = egui::FontDefinitions::default();
+    fonts.font_data.insert(
+        "dejavu-sans".into(),
+        std::sync::Arc::new(egui::FontData::from_static(DEJAVU_SANS)),
+    );
+    for family in [egui::FontFamily::Proportional, egui::FontFamily::Monospace] {
+        fonts
+            .families
+            .entry(family)
+            .or_default()
+            .push("dejavu-sans".into());
+    }
+    ctx.set_fonts(fonts);
 }
 
 /// The bundled demo project, looked for beside the working folder first, then in the source tree
@@ -96,7 +117,8 @@ pub fn run(project: Option<PathBuf>) -> Result<(), LaunchError> {
     eframe::run_native(
         "Consolute",
         options,
-        Box::new(move |_cc| {
+        Box::new(move |cc| {
+            install_fonts(&cc.egui_ctx);
             let app = Workbench::new(WorkbenchOptions {
                 project: Some(path),
                 remember_recent: true,

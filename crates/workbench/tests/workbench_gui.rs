@@ -9,6 +9,7 @@ use egui::{Key, Modifiers, vec2};
 use egui_kittest::Harness;
 use egui_kittest::kittest::{NodeT, Queryable};
 use micrograph::segment::LevelChoice;
+use project::figure::FigureKind;
 use workbench::command::Command;
 use workbench::document::{GrainRef, MicrographRef};
 use workbench::{Stage, Workbench, WorkbenchOptions};
@@ -44,6 +45,7 @@ fn harness(name: &str) -> Harness<'static, Workbench> {
     });
     Harness::builder()
         .with_size(vec2(1500.0, 940.0))
+        .with_context_setup(workbench::install_fonts)
         .build_ui_state(|ui, app: &mut Workbench| app.ui_root(ui), app)
 }
 
@@ -233,6 +235,18 @@ fn computing_gives_temperatures_with_intervals() {
             .count()
             >= 1
     );
+    // The Temperature stage draws the grain's figures; one exports to a file.
+    h.get_by_label("Temperature").click();
+    settle(&mut h, Duration::from_secs(300));
+    assert!(h.state().figures_ready());
+    let out = std::env::temp_dir().join(format!("consolute-wb-{}-tx.svg", std::process::id()));
+    h.state_mut().export_figure(FigureKind::Solvus, &out);
+    let svg = std::fs::read_to_string(&out).expect("figure written");
+    assert!(svg.starts_with("<svg"), "{}", h.state().status());
+    let png = out.with_extension("png");
+    h.state_mut().export_figure(FigureKind::Histogram, &png);
+    let bytes = std::fs::read(&png).expect("png written");
+    assert_eq!(&bytes[1..4], b"PNG");
     // Editing the pressure marks the results as out of date.
     h.state_mut().edit(Command::SetPressure(2.0));
     h.run_ok();

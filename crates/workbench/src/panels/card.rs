@@ -6,7 +6,7 @@ use egui::Ui;
 
 use super::with_interval;
 use crate::app::{Action, Stage, View};
-use crate::plots::{self, BulkPoint};
+use crate::figures;
 
 /// Draw the card.
 pub fn ui(ui: &mut Ui, view: &View<'_>, actions: &mut Vec<Action>) {
@@ -97,9 +97,15 @@ pub fn ui(ui: &mut Ui, view: &View<'_>, actions: &mut Vec<Action>) {
         }
         if result.system == reintegration::MineralSystem::Feldspar {
             ui.add_space(6.0);
-            let bulk = BulkPoint::from_summaries(&result.monte_carlo.bulk, result.min_temperature());
-            let solvus = view.solvus.and_then(|s| s.as_ref().ok());
-            plots::solvus_ui(ui, "card-solvus", solvus, &[], bulk, 200.0, true);
+            match view.figures.filter(|f| f.grain == Some(at)).map(|f| &f.solvus) {
+                Some(Ok(fig)) => figures::figure_ui(ui, "card-solvus", fig, 220.0, true),
+                Some(Err(e)) => {
+                    ui.weak(format!("no solvus figure: {e}"));
+                }
+                None => {
+                    ui.spinner();
+                }
+            }
             if ui.link("Open the Temperature stage").clicked() {
                 actions.push(Action::OpenStage(Stage::Temperature));
             }

@@ -121,7 +121,7 @@ pub fn ui(ui: &mut Ui, view: &View<'_>, actions: &mut Vec<Action>) {
             for m in list {
                 ui.horizontal(|ui| {
                     let (glyph, colour) = match m.severity {
-                        Severity::Error => ("⛔", ui.visuals().error_fg_color),
+                        Severity::Error => ("✖", ui.visuals().error_fg_color),
                         Severity::Warning => ("⚠", ui.visuals().warn_fg_color),
                         Severity::Note => ("ℹ", ui.visuals().weak_text_color()),
                     };

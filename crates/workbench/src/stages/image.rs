@@ -121,21 +121,21 @@ impl ImageStage {
 
     /// Fit and zoom buttons, class overlay switch.
     pub fn toolbar_ui(&mut self, ui: &mut Ui, view: &View<'_>, actions: &mut Vec<Action>) {
-        if let (Some(g), Some(grain)) = (view.grain, view.grain.and_then(|g| view.doc.grain(g))) {
-            if grain.micrographs.len() > 1 {
-                for (i, m) in grain.micrographs.iter().enumerate() {
-                    if ui
-                        .selectable_label(view.micrograph == i, &m.label)
-                        .clicked()
-                    {
-                        actions.push(Action::SelectMicrograph(crate::document::MicrographRef {
-                            grain: g,
-                            micrograph: i,
-                        }));
-                    }
+        if let (Some(g), Some(grain)) = (view.grain, view.grain.and_then(|g| view.doc.grain(g)))
+            && grain.micrographs.len() > 1
+        {
+            for (i, m) in grain.micrographs.iter().enumerate() {
+                if ui
+                    .selectable_label(view.micrograph == i, &m.label)
+                    .clicked()
+                {
+                    actions.push(Action::SelectMicrograph(crate::document::MicrographRef {
+                        grain: g,
+                        micrograph: i,
+                    }));
                 }
-                ui.separator();
             }
+            ui.separator();
         }
         if ui
             .button("Fit")

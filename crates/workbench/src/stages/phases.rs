@@ -4,7 +4,7 @@
 //! of the lamellae.
 
 use egui::{Color32, Pos2, Sense, Ui, pos2};
-use egui_plot::{Legend, Line, LineStyle, Plot, VLine};
+use egui_plot::{Line, LineStyle, Plot, VLine};
 use micrograph::segment::{LevelChoice, Segmentation};
 use project::{Grain, MicrographSpec};
 
@@ -135,6 +135,20 @@ impl PhasesStage {
         let seg = &classes.segmentation;
         let levels = self.levels_shown(spec, seg);
         self.histogram_ui(ui, at, seg, &levels, actions);
+        ui.horizontal_wrapped(|ui| {
+            for (i, l) in levels.iter().enumerate() {
+                ui.colored_label(
+                    egui::Color32::from_rgb(230, 120, 20),
+                    format!("level {}: {l}", i + 1),
+                );
+            }
+            if let Some(v) = seg.void_level {
+                ui.colored_label(
+                    egui::Color32::from_rgb(200, 60, 60),
+                    format!("voids at or below {v}"),
+                );
+            }
+        });
         ui.weak("Drag a level line to move it; the fractions follow at once.");
 
         // Fractions.
@@ -302,7 +316,6 @@ impl PhasesStage {
             .allow_boxed_zoom(false)
             .allow_double_click_reset(false)
             .sense(Sense::click_and_drag())
-            .legend(Legend::default())
             .x_axis_label("grey value")
             .y_axis_label("fraction of pixels")
             .include_y(0.0)

@@ -1,19 +1,57 @@
-//! The Temperature stage: model and pressure, the T-X diagram with the solvus and the bulk
-//! point (hover reads temperature and composition), other models for comparison, the pair
-//! thermometry table and the distribution of the minimum temperature.
+//! The Temperature stage: model and pressure; the T-X diagram and the ternary diagram of the
+//! grain (hover reads temperature and composition), other models for comparison; the pair
+//! thermometry table and the distribution of the minimum temperature. The diagrams are the
+//! project's figures, so each can be exported exactly as shown.
 
 use egui::Ui;
+use project::figure::FigureKind;
 use solvus::SolutionModel;
 
 use crate::app::{Action, View};
 use crate::command::Command;
-use crate::plots::{self, BulkPoint};
+use crate::figures::figure_ui;
 
 /// View state of the Temperature stage.
 #[derive(Default)]
 pub struct TemperatureStage {
     /// Draw the other built-in models' solvi too.
     pub compare: bool,
+}
+
+fn figure_with_export(
+    ui: &mut Ui,
+    view: &View<'_>,
+    kind: FigureKind,
+    title: &str,
+    height: f32,
+    actions: &mut Vec<Action>,
+) {
+    ui.horizontal(|ui| {
+        ui.label(egui::RichText::new(title).strong());
+        if ui
+            .small_button("Export…")
+            .on_hover_text("Write this figure as SVG, PNG (300 dpi) or PDF")
+            .clicked()
+        {
+            actions.push(Action::ExportFigure(kind));
+        }
+    });
+    let fig = view
+        .figures
+        .filter(|f| f.grain == view.grain)
+        .and_then(|f| f.get(kind));
+    match fig {
+        Some(Ok(fig)) => figure_ui(ui, kind.name(), fig, height, false),
+        Some(Err(e)) => {
+            ui.weak(format!("not drawn: {e}"));
+        }
+        None if view.figures.is_some_and(|f| f.grain == view.grain) => {
+            ui.weak("computed for feldspar grains with a result");
+        }
+        None => {
+            ui.spinner();
+        }
+    }
 }
 
 impl TemperatureStage {
@@ -61,15 +99,27 @@ impl TemperatureStage {
             ui.checkbox(&mut self.compare, "Compare models")
                 .on_hover_text("Draw the solvi of the other built-in models at the same pressure");
         });
-        if let Some(Err(e)) = view.solvus {
-            ui.colored_label(ui.visuals().error_fg_color, format!("solvus: {e}"));
-        }
         let result = view.grain.and_then(|g| view.result(g));
-        let bulk = result
-            .and_then(|r| BulkPoint::from_summaries(&r.monte_carlo.bulk, r.min_temperature()));
-        let solvus = view.solvus.and_then(|s| s.as_ref().ok());
-        let h = (ui.available_height() * 0.5).max(220.0);
-        plots::solvus_ui(ui, "tx-diagram", solvus, view.other_solvi, bulk, h, false);
+        let h = (ui.available_height() * 0.55).max(240.0);
+        ui.columns(2, |cols| {
+            figure_with_export(
+                &mut cols[0],
+                view,
+                FigureKind::Solvus,
+                "T–X diagram",
+                h,
+                actions,
+            );
+            figure_with_export(
+                &mut cols[1],
+                view,
+                FigureKind::Ternary,
+                "Ternary diagram",
+                h,
+                actions,
+            );
+        });
+        ui.separator();
         let Some(r) = result else {
             ui.label("Not computed yet.");
             return;
@@ -80,8 +130,12 @@ impl TemperatureStage {
             match r.min_temperature() {
                 Some(t) => {
                     ui.label(format!(
-                        "median {:.0} °C, 95 % interval {:.0}–{:.0} °C (mean {:.0}, sd {:.0}; Monte Carlo error of the median {:.1} °C)",
-                        t.median, t.p2_5, t.p97_5, t.mean, t.sd, t.mcse_median
+                        "median {:.0} °C, 95 % interval {:.0}–{:.0} °C",
+                        t.median, t.p2_5, t.p97_5
+                    ));
+                    ui.weak(format!(
+                        "mean {:.0} °C, sd {:.0} °C; Monte Carlo error of the median {:.1} °C",
+                        t.mean, t.sd, t.mcse_median
                     ));
                 }
                 None => {
@@ -127,7 +181,8 @@ impl TemperatureStage {
                 }
             }
             let ui = &mut cols[1];
-            plots::temperature_histogram_ui(ui, &r.monte_carlo.temperature_draws, r.min_temperature(), 220.0);
+            let h = ui.available_height().clamp(160.0, 320.0);
+            figure_with_export(ui, view, FigureKind::Histogram, "Minimum-temperature draws", h, actions);
         });
     }
 }

@@ -1,0 +1,299 @@
+//! The project's renderer-neutral figures drawn with egui_plot, so that what the workbench shows
+//! is what the exports contain; and the worker thread that builds them for the selected grain.
+
+use std::path::PathBuf;
+use std::sync::mpsc;
+
+use egui::{Align2, Color32, RichText, Stroke, Ui};
+use egui_plot::{Line, LineStyle, Plot, PlotPoint, Points, Polygon, Text};
+use project::figure::{
+    Anchor, Dash, Figure, FigureKind, Frame, GrainFigureOptions, Item, LegendSymbol, MarkerShape,
+    Rgb, SolvusFigureOptions, plain_text, solvus_figure,
+};
+use project::{GrainResult, Project};
+use solvus::SolutionModel;
+
+use crate::document::GrainRef;
+
+fn colour(c: Rgb) -> Color32 {
+    Color32::from_rgb(c.0, c.1, c.2)
+}
+
+/// Dark lines of a figure made for white paper stay readable on a dark background.
+fn on_screen(c: Rgb, dark: bool) -> Color32 {
+    if dark && c.0 < 60 && c.1 < 60 && c.2 < 60 {
+        Color32::from_gray(220)
+    } else {
+        colour(c)
+    }
+}
+
+fn style(dash: Dash) -> LineStyle {
+    match dash {
+        Dash::Solid => LineStyle::Solid,
+        Dash::Dashed => LineStyle::dashed_loose(),
+        Dash::Dotted => LineStyle::dotted_dense(),
+        Dash::DashDot => LineStyle::dashed_dense(),
+    }
+}
+
+fn shape(s: MarkerShape) -> egui_plot::MarkerShape {
+    match s {
+        MarkerShape::Circle => egui_plot::MarkerShape::Circle,
+        MarkerShape::Square => egui_plot::MarkerShape::Square,
+        MarkerShape::Diamond => egui_plot::MarkerShape::Diamond,
+        MarkerShape::TriangleUp => egui_plot::MarkerShape::Up,
+        MarkerShape::TriangleDown => egui_plot::MarkerShape::Down,
+        MarkerShape::Cross => egui_plot::MarkerShape::Cross,
+        MarkerShape::Plus => egui_plot::MarkerShape::Plus,
+    }
+}
+
+/// Screen points per typographic point of the figure.
+const PT: f32 = 1.4;
+
+/// Draw a figure. `small` makes a fixed, non-interactive plot for the result card. Hovering a
+/// Cartesian figure reads its two axes.
+pub fn figure_ui(ui: &mut Ui, id: &str, fig: &Figure, height: f32, small: bool) {
+    let dark = ui.visuals().dark_mode;
+    let mut plot = Plot::new(id).height(height).show_background(true);
+    match &fig.frame {
+        Frame::Cartesian { x, y } => {
+            let (xl, yl) = (plain_text(&x.label), plain_text(&y.label));
+            let (xl2, yl2) = (xl.clone(), yl.clone());
+            plot = plot
+                .x_axis_label(xl)
+                .y_axis_label(yl)
+                .default_x_bounds(x.min.min(x.max), x.min.max(x.max))
+                .default_y_bounds(y.min.min(y.max), y.min.max(y.max))
+                .label_formatter(move |hover| {
+                    let (name, p) = match hover {
+                        egui_plot::HoverPosition::NearDataPoint {
+                            plot_name,
+                            position,
+                            ..
+                        } => (*plot_name, position),
+                        egui_plot::HoverPosition::Elsewhere { position } => ("", position),
+                    };
+                    let head = if name.is_empty() {
+                        String::new()
+                    } else {
+                        format!("{name}\n")
+                    };
+                    Some(format!("{head}{xl2} {:.3}\n{yl2} {:.1}", p.x, p.y))
+                });
+        }
+        Frame::Plain { x, y } => {
+            plot = plot
+                .data_aspect(1.0)
+                .show_axes(false)
+                .show_grid(false)
+                .default_x_bounds(x.0.min(x.1), x.0.max(x.1))
+                .default_y_bounds(y.0.min(y.1), y.0.max(y.1))
+                .label_formatter(|_| None);
+        }
+    }
+    if small {
+        plot = plot
+            .allow_drag(false)
+            .allow_zoom(false)
+            .allow_scroll(false)
+            .allow_boxed_zoom(false);
+    }
+    plot.show(ui, |pui| {
+        for item in &fig.items {
+            match item {
+                Item::Line(l) => pui.line(
+                    Line::new("", l.points.clone())
+                        .color(on_screen(l.style.colour, dark))
+                        .width(l.style.width_pt as f32 * PT)
+                        .style(style(l.style.dash)),
+                ),
+                Item::Polygon(p) => {
+                    let fill = p
+                        .fill
+                        .map(|f| colour(f).gamma_multiply(p.fill_opacity as f32))
+                        .unwrap_or(Color32::TRANSPARENT);
+                    let stroke = p
+                        .stroke
+                        .map(|s| Stroke::new(s.width_pt as f32 * PT, on_screen(s.colour, dark)))
+                        .unwrap_or(Stroke::NONE);
+                    pui.add(
+                        Polygon::new("", p.points.clone())
+                            .fill_color(fill)
+                            .stroke(stroke)
+                            .allow_hover(false),
+                    );
+                }
+                Item::Markers(m) => pui.add(
+                    Points::new("", m.points.clone())
+                        .shape(shape(m.shape))
+                        .radius(m.size_pt as f32 * PT * 0.5)
+                        .filled(m.fill.is_some())
+                        .color(
+                            on_screen(m.fill.unwrap_or(m.colour), dark)
+                                .gamma_multiply(m.opacity as f32),
+                        ),
+                ),
+                Item::ErrorBar(e) => {
+                    let c = on_screen(e.style.colour, dark);
+                    let w = e.style.width_pt as f32 * PT;
+                    if let Some((lo, hi)) = e.x {
+                        pui.line(
+                            Line::new("", vec![[lo, e.at[1]], [hi, e.at[1]]])
+                                .color(c)
+                                .width(w),
+                        );
+                    }
+                    if let Some((lo, hi)) = e.y {
+                        pui.line(
+                            Line::new("", vec![[e.at[0], lo], [e.at[0], hi]])
+                                .color(c)
+                                .width(w),
+                        );
+                    }
+                }
+                Item::Label(l) => {
+                    let anchor = match l.anchor {
+                        Anchor::Start => Align2::LEFT_CENTER,
+                        Anchor::Middle => Align2::CENTER_CENTER,
+                        Anchor::End => Align2::RIGHT_CENTER,
+                    };
+                    pui.text(
+                        Text::new(
+                            "",
+                            PlotPoint::new(l.at[0], l.at[1]),
+                            RichText::new(plain_text(&l.text))
+                                .size((l.size_pt as f32 * PT).max(9.0)),
+                        )
+                        .color(on_screen(l.colour, dark))
+                        .anchor(anchor),
+                    );
+                }
+                Item::Image(_) => {}
+            }
+        }
+    });
+    if !small && !fig.legend.is_empty() {
+        ui.horizontal_wrapped(|ui| {
+            for entry in &fig.legend {
+                let (glyph, c) = match &entry.symbol {
+                    LegendSymbol::Line(s) => ("━", on_screen(s.colour, dark)),
+                    LegendSymbol::Marker {
+                        colour: c, fill, ..
+                    } => ("●", on_screen(fill.unwrap_or(*c), dark)),
+                    LegendSymbol::Patch { fill, .. } => ("■", colour(*fill)),
+                };
+                ui.colored_label(c, glyph);
+                ui.label(plain_text(&entry.label));
+                ui.add_space(8.0);
+            }
+        });
+    }
+}
+
+/// The figures of the selected grain.
+pub struct FigureSet {
+    /// What they were built from.
+    pub key: String,
+    /// The grain they are of.
+    pub grain: Option<GrainRef>,
+    /// T-X diagram (solvus alone when the grain has no result).
+    pub solvus: Result<Figure, String>,
+    /// Ternary diagram.
+    pub ternary: Option<Result<Figure, String>>,
+    /// Minimum-temperature distribution.
+    pub histogram: Option<Result<Figure, String>>,
+}
+
+impl FigureSet {
+    /// The figure of a kind, if built.
+    pub fn get(&self, kind: FigureKind) -> Option<&Result<Figure, String>> {
+        match kind {
+            FigureKind::Solvus => Some(&self.solvus),
+            FigureKind::Ternary => self.ternary.as_ref(),
+            FigureKind::Histogram => self.histogram.as_ref(),
+            _ => None,
+        }
+    }
+}
+
+/// Building a [`FigureSet`] on the `consolute-figures` thread.
+pub struct FigureJob {
+    /// The set it builds.
+    pub key: String,
+    rx: mpsc::Receiver<FigureSet>,
+}
+
+impl FigureJob {
+    /// Start building. `extra_models` are overlaid on the solvus.
+    ///
+    /// # Errors
+    /// When the thread cannot start.
+    pub fn start(
+        ctx: egui::Context,
+        key: String,
+        grain_ref: Option<GrainRef>,
+        project: Project,
+        path: PathBuf,
+        grain: Option<GrainResult>,
+        extra_models: Vec<String>,
+    ) -> Result<Self, String> {
+        let (tx, rx) = mpsc::channel();
+        let k = key.clone();
+        std::thread::Builder::new()
+            .name("consolute-figures".into())
+            .spawn(move || {
+                let options = GrainFigureOptions {
+                    extra_models: extra_models.clone(),
+                    spinodal: false,
+                    ..GrainFigureOptions::default()
+                };
+                let build = |kind: FigureKind, g: &GrainResult| {
+                    project::figure::grain_figure(kind, &project, &path, g, &options)
+                        .map_err(|e| e.to_string())
+                };
+                let feldspar = grain
+                    .as_ref()
+                    .filter(|g| g.system == reintegration::MineralSystem::Feldspar);
+                let solvus = match feldspar {
+                    Some(g) => build(FigureKind::Solvus, g),
+                    None => {
+                        let models: Result<Vec<SolutionModel>, String> =
+                            std::iter::once(project.settings.feldspar_model.clone())
+                                .chain(extra_models)
+                                .map(|id| SolutionModel::builtin(&id).map_err(|e| e.to_string()))
+                                .collect();
+                        models.and_then(|m| {
+                            solvus_figure(
+                                &m,
+                                project.settings.pressure_kbar,
+                                None,
+                                &SolvusFigureOptions {
+                                    spinodal: false,
+                                    ..SolvusFigureOptions::default()
+                                },
+                            )
+                            .map_err(|e| e.to_string())
+                        })
+                    }
+                };
+                let set = FigureSet {
+                    key: k,
+                    grain: grain_ref,
+                    solvus,
+                    histogram: feldspar.map(|g| build(FigureKind::Histogram, g)),
+                    ternary: feldspar.map(|g| build(FigureKind::Ternary, g)),
+                };
+                let _ = tx.send(set);
+                ctx.request_repaint();
+            })
+            .map_err(|e| format!("could not start drawing the figures: {e}"))?;
+        Ok(FigureJob { key, rx })
+    }
+
+    /// The set, once built.
+    pub fn poll(&self) -> Option<FigureSet> {
+        self.rx.try_recv().ok()
+    }
+}
