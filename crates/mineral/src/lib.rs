@@ -37,6 +37,7 @@ pub use feldspar::{FeldsparEndMembers, FeldsparFormula, FeldsparIron, feldspar_f
 pub use import::{ImportError, ImportErrorKind, SpotTable, parse_spot_table, read_spot_file};
 pub use oxide::Oxide;
 pub use pyroxene::{
-    PyroxeneEndMembers, PyroxeneFormula, PyroxeneIron, PyroxeneSites, pyroxene_formula,
+    PyroxeneEndMembers, PyroxeneFormula, PyroxeneIron, PyroxeneSites, pyroxene_cations_total_iron,
+    pyroxene_formula,
 };
 pub use quality::{Flag, QualityLimits};

@@ -285,3 +285,14 @@ fn assign_sites(cations: &Cations) -> PyroxeneSites {
     );
     sites
 }
+
+/// Cations per 6 oxygens with all iron as Fe2+ and no normalisation to 4 cations: the basis on
+/// which the empirical pyroxene thermometers were calibrated (Putirka 2008; Brey & Köhler 1990).
+/// `None` when the analysis has no usable oxide.
+pub fn pyroxene_cations_total_iron(analysis: &Analysis) -> Option<Cations> {
+    cations_on_oxygen_basis(
+        &with_total_iron_as_feo(analysis),
+        OXYGENS,
+        FeOReading::Ferrous,
+    )
+}

@@ -13,6 +13,7 @@ mod document;
 pub mod figure;
 mod io;
 pub mod output;
+pub mod px;
 pub mod report;
 mod run;
 

@@ -49,6 +49,7 @@ pub mod binary;
 pub mod error;
 pub mod model;
 mod numeric;
+pub mod pyroxene;
 pub mod stability;
 pub mod ternary;
 pub mod thermometry;
