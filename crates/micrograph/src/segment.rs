@@ -14,7 +14,7 @@ use crate::error::{MicrographError, Result};
 use crate::histogram::Histogram;
 use crate::load::GrayPlane;
 use crate::roi::Mask;
-use crate::threshold::{multi_otsu_levels, refine_levels_to_mode_midpoints};
+use crate::threshold::{multi_otsu_levels, refine_levels_to_mode_midpoints, thin_phase_level};
 
 /// Class value in a class map for pixels that are not measured (outside the region, voids,
 /// rims).
@@ -29,8 +29,11 @@ pub enum LevelChoice {
     /// Otsu (2 classes) or multi-level Otsu on the measured histogram.
     Otsu,
     /// Otsu, then each level moved to the midpoint between the modes of its two classes
-    /// (unbiased by symmetric edge blur; see
-    /// [`refine_levels_to_mode_midpoints`]).
+    /// (unbiased by symmetric edge blur; see [`refine_levels_to_mode_midpoints`]). With two
+    /// phases the level then moves to the half-way point between the pure levels of
+    /// [`Unmixing::pure_levels`] (wider phase from its cores, thinner phase solved by
+    /// [`thin_phase_level`]), since in thin lamellae blur pulls the thin phase's mode toward
+    /// the other phase and a mode midpoint over-counts it.
     OtsuMidpoint,
 }
 
@@ -73,8 +76,8 @@ pub struct SegmentSettings {
     pub seed: u64,
     /// Threshold sensitivity step in grey levels (None = 1% of full scale).
     pub sensitivity_step: Option<u16>,
-    /// Pixels at least this far (Euclidean distance transform) from any other class are cores
-    /// for the pure phase levels of the unmixing estimate.
+    /// Pixels at least this far (chessboard distance) from any other class are cores for the
+    /// pure level of the wider phase (see [`Unmixing::pure_levels`]).
     pub core_distance_px: u8,
     /// Optional opening then closing of the brighter phase of a two-phase map, radius in px
     /// (square structuring element; 0 = off). Opening removes bright specks and thin
@@ -142,7 +145,13 @@ pub struct Sensitivity {
 /// (spectral mixture analysis); for blur, mean preservation by a normalised kernel.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Unmixing {
-    /// Pure levels (median grey of core pixels), dark then bright.
+    /// Pure levels, dark then bright: for the wider phase (the larger share of its pixels in
+    /// cores) the median grey of its core pixels; for the thinner phase the level solved by
+    /// [`thin_phase_level`] from the histogram (blur leaves no unblurred core in lamellae a few
+    /// px wide), or its core median when that has no root (with a warning). The thin level
+    /// solves "mean-preserving unmixing = classification at the half-way level", so with the
+    /// default level choice the two estimates agree up to the small-feature clean-up and the
+    /// bootstrap intervals; their disagreement flags flattening, clean-up or non-Gaussian blur.
     pub pure_levels: [f64; 2],
     /// Core pixels used for each level.
     pub core_pixels: [u64; 2],
@@ -407,22 +416,37 @@ pub fn segment(
     control.step(0.4)?;
 
     // Classification through a lookup table over bins.
-    let lut: Vec<u8> = {
-        let mut lut = vec![0u8; hist.len()];
-        for (c, (lo, hi)) in hist.class_bins(&levels).into_iter().enumerate() {
-            lut[lo..hi].iter_mut().for_each(|x| *x = c as u8);
-        }
-        lut
-    };
-    let shift = s.bin_shift;
-    class_map
-        .par_iter_mut()
-        .zip(plane.data.par_iter())
-        .for_each(|(c, &v)| {
-            if *c != NOT_MEASURED {
-                *c = lut[usize::from(v) >> shift];
+    let lut = class_lut(&hist, &levels);
+    classify(plane, &mut class_map, &lut, s.bin_shift);
+    let mut levels = levels;
+    let mut warnings = Vec::new();
+    // Pure levels (two phases): cores of the first classification, before clean-up, and the
+    // blur-consistent level of the thinner phase; the default level choice then moves to the
+    // half-way point between them and the pixels are classified again.
+    let pure = if s.classes == 2 {
+        let p = pure_levels(plane, &class_map, &hist, &levels, s.core_distance_px)?;
+        if let Some(p) = &p {
+            if !p.thin_level_solved {
+                warnings.push(
+                    "the thinner phase's pure grey level could not be resolved from the histogram (lamellae under about 2.5 blur widths?): its core median is used, which edge blur biases"
+                        .to_string(),
+                );
             }
-        });
+            if matches!(s.levels, LevelChoice::OtsuMidpoint) {
+                let mid = ((p.levels[0] + p.levels[1]) / 2.0)
+                    .floor()
+                    .clamp(0.0, f64::from(plane.max_value)) as u16;
+                if mid != levels[0] {
+                    levels = vec![mid];
+                    let lut = class_lut(&hist, &levels);
+                    classify(plane, &mut class_map, &lut, s.bin_shift);
+                }
+            }
+        }
+        p
+    } else {
+        None
+    };
     control.step(0.5)?;
     if s.min_feature_px > 1 {
         remove_small_features(&mut class_map, w, h, s.min_feature_px, s.classes)?;
@@ -473,7 +497,6 @@ pub fn segment(
         .unwrap_or_else(|| (plane.max_value / 100).max(1));
     let sens = sensitivity(&hist, &levels, step);
 
-    let mut warnings = Vec::new();
     if phases.iter().any(|p| p.pixels == 0) {
         warnings.push("a phase has no pixels: fewer phases than classes requested?".to_string());
     }
@@ -484,7 +507,7 @@ pub fn segment(
         );
     }
     let unmixing = if s.classes == 2 {
-        let u = unmix(plane, &class_map, &hist, &tiles, s)?;
+        let u = pure.and_then(|p| unmix(&p, &hist, &tiles, s));
         if let Some(u) = &u {
             let overlap = |a: Option<[f64; 2]>, b: Option<[f64; 2]>| match (a, b) {
                 (Some(a), Some(b)) => a[0] <= b[1] && b[0] <= a[1],
@@ -1015,33 +1038,92 @@ pub fn exclude_voids_with_rim(
     rim_values
 }
 
-fn unmix(
+/// Lookup table bin -> class for `levels`.
+fn class_lut(hist: &Histogram, levels: &[u16]) -> Vec<u8> {
+    let mut lut = vec![0u8; hist.len()];
+    for (c, (lo, hi)) in hist.class_bins(levels).into_iter().enumerate() {
+        lut[lo..hi].iter_mut().for_each(|x| *x = c as u8);
+    }
+    lut
+}
+
+/// Classifies every measured pixel of `class_map` through `lut`.
+fn classify(plane: &GrayPlane, class_map: &mut [u8], lut: &[u8], bin_shift: u32) {
+    class_map
+        .par_chunks_mut(1 << 16)
+        .zip(plane.data.par_chunks(1 << 16))
+        .for_each(|(cs, vs)| {
+            for (c, &v) in cs.iter_mut().zip(vs) {
+                if *c != NOT_MEASURED {
+                    *c = lut[usize::from(v) >> bin_shift];
+                }
+            }
+        });
+}
+
+/// Pure grey levels of the two phases (dark, bright).
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct PureLevels {
+    levels: [f64; 2],
+    core_pixels: [u64; 2],
+    /// False when the thinner phase's level is its (blur-biased) core median.
+    thin_level_solved: bool,
+}
+
+/// Pure levels of a two-phase image: the phase with the larger share of core pixels (cores:
+/// pixels at least `core_distance_px` from any other class, see [`core_histograms`]) is the
+/// wider one, and the median of its cores is its pure level (its cores are beyond the reach of
+/// the blur); the thinner phase's level is solved from the histogram with
+/// [`thin_phase_level`], falling back to its core median when that has no root.
+fn pure_levels(
     plane: &GrayPlane,
     class_map: &[u8],
     hist: &Histogram,
-    tiles: &[TileStats],
-    s: &SegmentSettings,
-) -> Result<Option<Unmixing>> {
-    let mut pure = [0.0f64; 2];
-    let mut core_pixels = [0u64; 2];
+    levels: &[u16],
+    core_distance_px: u8,
+) -> Result<Option<PureLevels>> {
     // 16-bit levels binned by 16 (0.02% of full scale) keep the tables in cache.
     let shift = if plane.max_value > 255 { 4 } else { 0 };
-    let core_hists = core_histograms(plane, class_map, 2, s.core_distance_px, shift)?;
-    for (c, ch) in core_hists.iter().enumerate() {
-        core_pixels[c] = ch.total();
-        match ch.quantile(0.5) {
-            Some(m) => pure[c] = m,
-            None => return Ok(None),
-        }
-    }
+    let core_hists = core_histograms(plane, class_map, 2, core_distance_px, shift)?;
+    let core_pixels = [core_hists[0].total(), core_hists[1].total()];
+    let medians = [core_hists[0].quantile(0.5), core_hists[1].quantile(0.5)];
+    let class_px: Vec<u64> = hist.class_stats(levels).iter().map(|c| c.pixels).collect();
+    let share = |c: usize| core_pixels[c] as f64 / class_px[c].max(1) as f64;
+    let reference = if share(0) >= share(1) { 0 } else { 1 };
+    let thin = 1 - reference;
+    let Some(g_ref) = medians[reference] else {
+        return Ok(None);
+    };
+    let solved = thin_phase_level(hist, g_ref, thin == 0);
+    let g_thin = match (solved, medians[thin]) {
+        (Some(g), _) => g,
+        (None, Some(g)) => g,
+        (None, None) => return Ok(None),
+    };
+    let mut l = [0.0; 2];
+    l[reference] = g_ref;
+    l[thin] = g_thin;
+    Ok(Some(PureLevels {
+        levels: l,
+        core_pixels,
+        thin_level_solved: solved.is_some(),
+    }))
+}
+
+fn unmix(
+    pure: &PureLevels,
+    hist: &Histogram,
+    tiles: &[TileStats],
+    s: &SegmentSettings,
+) -> Option<Unmixing> {
     let measured: f64 = tiles.iter().map(|t| t.measured).sum();
     if measured <= 0.0 || hist.total() == 0 {
-        return Ok(None);
+        return None;
     }
     let mean = tiles.iter().map(|t| t.gray_sum).sum::<f64>() / measured;
-    let (gd, gb) = (pure[0], pure[1]);
+    let [gd, gb] = pure.levels;
     if gb - gd <= 0.0 {
-        return Ok(None);
+        return None;
     }
     let f_dark = ((gb - mean) / (gb - gd)).clamp(0.0, 1.0);
     let ci = statistic_ci95(tiles, s.bootstrap_resamples, s.seed ^ 0xA5A5, 2, |t| {
@@ -1050,14 +1132,14 @@ fn unmix(
         vec![fd, 1.0 - fd]
     })
     .map(|v| [v[0], v[1]]);
-    Ok(Some(Unmixing {
-        pure_levels: pure,
-        core_pixels,
+    Some(Unmixing {
+        pure_levels: pure.levels,
+        core_pixels: pure.core_pixels,
         mean_gray: mean,
         area_fraction: [f_dark, 1.0 - f_dark],
         area_fraction_ci95: ci,
         disagrees: false,
-    }))
+    })
 }
 
 #[cfg(test)]

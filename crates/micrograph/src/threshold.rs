@@ -204,6 +204,80 @@ pub fn refine_levels_to_mode_midpoints(
         .collect()
 }
 
+/// The true (unblurred) grey level of the thinner phase of a two-phase image, from the
+/// measured histogram and the pure level of the wider phase (`reference`, e.g. the median of
+/// its core pixels). Returns `None` when the equations below have no root on the thin side.
+///
+/// Why: in lamellae only a few blur widths wide, no pixel is far enough from an edge to show
+/// the pure grey: the centre of a box of width `W` blurred by a Gaussian of standard deviation
+/// `sigma` reaches only `erf(W / (2 sqrt(2) sigma))` of the contrast (0.94 for 4.5 px at
+/// 1.2 px), so "core" levels and histogram modes of the thin phase are pulled toward the other
+/// phase, and both the mid-level classification and the unmixing over-count it.
+///
+/// Derivation (two facts about a blurred two-phase image, each cited where used in this
+/// module): (1) a normalised blur kernel preserves the mean grey, so with pure levels `g_r`
+/// (reference) and `g_t` (thin), the thin fraction is `f = (g_r - mean) / (g_r - g_t)`
+/// (linear mixing; Adams, Smith & Johnson 1986); (2) a straight edge blurred by a symmetric
+/// kernel crosses the half-way grey `(g_r + g_t) / 2` at the true edge position (Gonzalez &
+/// Woods 2008, §10.2), so the fraction of pixels beyond that level, `C((g_r + g_t) / 2)`, is
+/// also `f` (exactly for a step; for a box of width `W` the half-way crossing moves inward by
+/// `erfc(W / (sqrt(2) sigma)) sqrt(2 pi) sigma / 2`, under `0.01 sigma` once `W > 2.8 sigma`).
+/// Both hold only at the true `g_t`, so it solves
+/// `F(g_t) = C((g_r + g_t) / 2) - (g_r - mean) / (g_r - g_t) = 0`.
+///
+/// With contrast `D = |g_r - g_t|`, period `P` and a Gaussian blur, `dC/dD = -sigma sqrt(2 pi)
+/// / (P D)` (edge pixels per grey level at the half-way level) and `d(m/D)/dD = -W / (P D)`, so
+/// `dF/dD = (W - sqrt(2 pi) sigma) / (P D)`: `F` rises through zero at the true level when the
+/// thin phase is wider than `2.5 sigma`, and an error `e` in `C` becomes an error of
+/// `e W / (W - 2.5 sigma)` in `f`. `F` is negative near `g_r` (the mean term diverges) and
+/// again far beyond the thin phase (`C` falls to 0), so the root is the first crossing from
+/// below when `g_t` moves from `g_r` outward; it is found bin by bin and interpolated linearly.
+pub fn thin_phase_level(h: &Histogram, reference: f64, thin_is_dark: bool) -> Option<f64> {
+    let total = h.total();
+    let mean = h.mean()?;
+    let m = if thin_is_dark {
+        reference - mean
+    } else {
+        mean - reference
+    };
+    if m <= 0.0 {
+        return None;
+    }
+    let total = total as f64;
+    let max = f64::from(h.max_value());
+    // Fraction of the pixels on the thin side of the level for thin level `g`, with the
+    // classification rule (`v <= level` is dark, level = floor of the midpoint).
+    let f_of = |g: f64| -> f64 {
+        let level = ((reference + g) / 2.0).floor().clamp(0.0, max) as u16;
+        let (dark, _) = h.range_count_sum(0, h.bin_of(level) + 1);
+        let c = if thin_is_dark {
+            dark as f64
+        } else {
+            total - dark as f64
+        } / total;
+        c - m / (reference - g).abs()
+    };
+    let rb = h.bin_of(reference.clamp(0.0, max) as u16);
+    let bins: Box<dyn Iterator<Item = usize>> = if thin_is_dark {
+        Box::new((0..rb).rev())
+    } else {
+        Box::new(rb + 1..h.len())
+    };
+    let mut prev: Option<(f64, f64)> = None;
+    for b in bins {
+        let g = h.bin_value(b);
+        let f = f_of(g);
+        if f >= 0.0 {
+            return match prev {
+                Some((gp, fp)) if fp < 0.0 => Some(gp + (g - gp) * (-fp) / (f - fp)),
+                _ => None,
+            };
+        }
+        prev = Some((g, f));
+    }
+    None
+}
+
 #[cfg(test)]
 pub(crate) fn exhaustive_multi_otsu_bins(h: &Histogram, classes: usize) -> (Vec<usize>, f64) {
     fn rec(

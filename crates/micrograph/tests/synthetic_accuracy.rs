@@ -146,3 +146,97 @@ fn stained_colour_variant_recovers_fraction_within_half_a_percent() {
         );
     }
 }
+
+/// Thin lamellae (a few blur widths wide): the two images of issue 4, dark 4.5-px lamellae
+/// every 15 px and bright 6-px lamellae every 30 px, blur sigma 1.2 px.
+fn thin_spec(dark_thin: bool) -> SyntheticSpec {
+    let base = SyntheticSpec {
+        width: 640,
+        height: 480,
+        period_px: 15.0,
+        lamella_width_px: 4.5,
+        angle_deg: 35.0,
+        host_level: 0.68,
+        lamella_level: 0.48,
+        void_level: 0.06,
+        blur_sigma_px: 1.2,
+        noise_sigma: 0.015,
+        gradient: 0.08,
+        cracks: vec![(20.0, 400.0, 610.0, 330.0, 2.5)],
+        pores: vec![(150.0, 110.0, 12.0), (480.0, 260.0, 7.0)],
+        seed: 31,
+        ..SyntheticSpec::default()
+    };
+    if dark_thin {
+        base
+    } else {
+        SyntheticSpec {
+            period_px: 30.0,
+            lamella_width_px: 6.0,
+            host_level: 0.50,
+            lamella_level: 0.66,
+            seed: 41,
+            ..base
+        }
+    }
+}
+
+#[test]
+fn thin_lamellae_within_half_a_percent_and_warned_below_five_px() {
+    use micrograph::morphometry::morphometry;
+    for dark_thin in [true, false] {
+        let spec = thin_spec(dark_thin);
+        let syn = spec.generate();
+        let plane = syn.plane(spec.width, spec.height, true).unwrap();
+        let region = Mask::full(spec.width, spec.height);
+        let rh = Histogram::of_region(&plane, None, 0).unwrap();
+        let void = auto_void_level(&rh, 2);
+        assert!(void.is_some(), "the pores and crack must be found as voids");
+        let (flat, _) = flatten(&plane, &region, 2, 1, void, &Control::none()).unwrap();
+        let seg = segment(
+            &flat,
+            &region,
+            &SegmentSettings::default(),
+            &Control::none(),
+        )
+        .unwrap();
+        // Lamellae are class 0 when darker than the host, class 1 when brighter.
+        let lam = usize::from(!dark_thin);
+        let truth = truth_over_measured(&syn, &seg.class_map);
+        let got = seg.phases[lam].area_fraction;
+        let unmixed = seg.unmixing.as_ref().unwrap().area_fraction[lam];
+        let m = morphometry(
+            &seg.class_map,
+            spec.width,
+            spec.height,
+            lam as u8,
+            None,
+            &Control::none(),
+        )
+        .unwrap();
+        eprintln!(
+            "thin {} px / {} px: got {got:.5} unmixed {unmixed:.5} truth {truth:.5} width {:.2} px",
+            spec.lamella_width_px, spec.period_px, m.mean_width_px
+        );
+        // Source: the construction (see the module docs); the issue's limit of 0.5 volume %.
+        assert!(
+            (got - truth).abs() < 0.005,
+            "classification {got} vs truth {truth}"
+        );
+        assert!(
+            (unmixed - truth).abs() < 0.005,
+            "unmixing {unmixed} vs truth {truth}"
+        );
+        // The 4.5-px lamellae are under the 5-px limit of the thin-lamella warning (common
+        // practice; the morphometry width is good to about 0.5 px, so the 6-px case is not
+        // asserted either way).
+        if spec.lamella_width_px < 5.0 {
+            assert!(
+                m.warnings.iter().any(|w| w.contains("px wide")),
+                "no thin-lamella warning at {} px: {:?}",
+                m.mean_width_px,
+                m.warnings
+            );
+        }
+    }
+}
