@@ -169,3 +169,86 @@ impl Document {
             .unwrap_or_else(|| PathBuf::from("untitled.json"))
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn demo() -> Document {
+        Document::open(&crate::demo_project_path()).expect("the demo project reads")
+    }
+
+    #[test]
+    fn undo_and_redo_walk_the_history() {
+        let mut doc = demo();
+        let original = doc.project.clone();
+        doc.apply(Command::SetPressure(2.5)).expect("applies");
+        doc.apply(Command::SetModel("tw1969".into()))
+            .expect("applies");
+        assert_eq!(doc.project.settings.pressure_kbar, 2.5);
+        assert_eq!(doc.undo_label(), Some("model tw1969"));
+        doc.undo();
+        assert_eq!(
+            doc.project.settings.feldspar_model,
+            original.settings.feldspar_model
+        );
+        doc.undo();
+        assert_eq!(doc.project, original);
+        assert!(doc.undo().is_none());
+        doc.redo();
+        doc.redo();
+        assert_eq!(doc.project.settings.feldspar_model, "tw1969");
+        assert_eq!(doc.project.settings.pressure_kbar, 2.5);
+    }
+
+    #[test]
+    fn a_dragged_value_is_undone_in_one_step() {
+        let mut doc = demo();
+        let draws = doc.project.settings.draws;
+        for n in [100, 200, 300] {
+            doc.apply(Command::SetDraws(n)).expect("applies");
+        }
+        doc.undo();
+        assert_eq!(doc.project.settings.draws, draws);
+        assert!(doc.undo_label().is_none());
+    }
+
+    #[test]
+    fn a_refused_edit_leaves_the_document_alone() {
+        let mut doc = demo();
+        let before = doc.project.clone();
+        let at = MicrographRef::default();
+        // Two phases need one level.
+        assert!(
+            doc.apply(Command::SetLevels {
+                at,
+                levels: vec![100, 200]
+            })
+            .is_err()
+        );
+        assert!(
+            doc.apply(Command::SetLevels { at, levels: vec![] })
+                .is_err()
+        );
+        assert!(
+            doc.apply(Command::SetModel("no-such-model".into()))
+                .is_err()
+        );
+        assert!(doc.apply(Command::SetPressure(f64::NAN)).is_err());
+        assert!(doc.apply(Command::SetDraws(0)).is_err());
+        let gone = MicrographRef {
+            micrograph: 99,
+            ..at
+        };
+        assert!(
+            doc.apply(Command::SetPixelSize {
+                at: gone,
+                pixel_size_um: Some(1.0)
+            })
+            .is_err()
+        );
+        assert_eq!(doc.project, before);
+        assert!(!doc.dirty);
+        assert!(doc.undo_label().is_none());
+    }
+}

@@ -49,6 +49,44 @@ fn shape(s: MarkerShape) -> egui_plot::MarkerShape {
     }
 }
 
+/// A simple polygon cut into convex pieces (trapezoids between consecutive vertex x values,
+/// inside by the even-odd rule), so that concave shapes such as a histogram outline fill right.
+pub fn trapezoids(points: &[[f64; 2]]) -> Vec<[[f64; 2]; 4]> {
+    let n = points.len();
+    if n < 3 {
+        return Vec::new();
+    }
+    let mut xs: Vec<f64> = points
+        .iter()
+        .map(|p| p[0])
+        .filter(|x| x.is_finite())
+        .collect();
+    xs.sort_by(f64::total_cmp);
+    xs.dedup();
+    let edges: Vec<([f64; 2], [f64; 2])> = (0..n)
+        .map(|i| (points[i], points[(i + 1) % n]))
+        .filter(|(a, b)| a[0] != b[0])
+        .collect();
+    let y_at =
+        |(a, b): &([f64; 2], [f64; 2]), x: f64| a[1] + (x - a[0]) / (b[0] - a[0]) * (b[1] - a[1]);
+    let mut out = Vec::new();
+    for w in xs.windows(2) {
+        let (x0, x1) = (w[0], w[1]);
+        let mid = 0.5 * (x0 + x1);
+        let mut crossing: Vec<(f64, f64, f64)> = edges
+            .iter()
+            .filter(|(a, b)| a[0].min(b[0]) <= x0 && a[0].max(b[0]) >= x1)
+            .map(|e| (y_at(e, mid), y_at(e, x0), y_at(e, x1)))
+            .collect();
+        crossing.sort_by(|a, b| a.0.total_cmp(&b.0));
+        for pair in crossing.chunks_exact(2) {
+            let (lo, hi) = (pair[0], pair[1]);
+            out.push([[x0, lo.1], [x1, lo.2], [x1, hi.2], [x0, hi.1]]);
+        }
+    }
+    out
+}
+
 /// Screen points per typographic point of the figure.
 const PT: f32 = 1.4;
 
@@ -88,8 +126,10 @@ pub fn figure_ui(ui: &mut Ui, id: &str, fig: &Figure, height: f32, small: bool) 
                 .data_aspect(1.0)
                 .show_axes(false)
                 .show_grid(false)
-                .default_x_bounds(x.0.min(x.1), x.0.max(x.1))
-                .default_y_bounds(y.0.min(y.1), y.0.max(y.1))
+                .include_x(x.0)
+                .include_x(x.1)
+                .include_y(y.0)
+                .include_y(y.1)
                 .label_formatter(|_| None);
         }
     }
@@ -110,20 +150,32 @@ pub fn figure_ui(ui: &mut Ui, id: &str, fig: &Figure, height: f32, small: bool) 
                         .style(style(l.style.dash)),
                 ),
                 Item::Polygon(p) => {
-                    let fill = p
-                        .fill
-                        .map(|f| colour(f).gamma_multiply(p.fill_opacity as f32))
-                        .unwrap_or(Color32::TRANSPARENT);
-                    let stroke = p
-                        .stroke
-                        .map(|s| Stroke::new(s.width_pt as f32 * PT, on_screen(s.colour, dark)))
-                        .unwrap_or(Stroke::NONE);
-                    pui.add(
-                        Polygon::new("", p.points.clone())
-                            .fill_color(fill)
-                            .stroke(stroke)
-                            .allow_hover(false),
-                    );
+                    // egui fills convex shapes only: fill the polygon as trapezoids, then stroke
+                    // its outline.
+                    if let Some(f) = p.fill {
+                        let fill = colour(f).gamma_multiply(p.fill_opacity as f32);
+                        for piece in trapezoids(&p.points) {
+                            pui.add(
+                                Polygon::new("", piece.to_vec())
+                                    .fill_color(fill)
+                                    .stroke(Stroke::NONE)
+                                    .allow_hover(false),
+                            );
+                        }
+                    }
+                    if let Some(s) = p.stroke {
+                        let mut outline = p.points.clone();
+                        if let Some(first) = outline.first().copied() {
+                            outline.push(first);
+                        }
+                        pui.line(
+                            Line::new("", outline)
+                                .color(on_screen(s.colour, dark))
+                                .width(s.width_pt as f32 * PT)
+                                .style(style(s.dash))
+                                .allow_hover(false),
+                        );
+                    }
                 }
                 Item::Markers(m) => pui.add(
                     Points::new("", m.points.clone())
@@ -153,6 +205,7 @@ pub fn figure_ui(ui: &mut Ui, id: &str, fig: &Figure, height: f32, small: bool) 
                         );
                     }
                 }
+                Item::Label(_) if small => {}
                 Item::Label(l) => {
                     let anchor = match l.anchor {
                         Anchor::Start => Align2::LEFT_CENTER,
@@ -295,5 +348,57 @@ impl FigureJob {
     /// The set, once built.
     pub fn poll(&self) -> Option<FigureSet> {
         self.rx.try_recv().ok()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::trapezoids;
+
+    fn area(q: &[[f64; 2]; 4]) -> f64 {
+        // Shoelace formula.
+        let mut a = 0.0;
+        for i in 0..4 {
+            let (p, r) = (q[i], q[(i + 1) % 4]);
+            a += p[0] * r[1] - r[0] * p[1];
+        }
+        (a / 2.0).abs()
+    }
+
+    #[test]
+    fn a_step_outline_is_filled_by_pieces_of_the_same_area() {
+        // Bars of heights 1, 3, 2 on unit bins, outlined as one concave polygon.
+        let outline = [
+            [0.0, 0.0],
+            [0.0, 1.0],
+            [1.0, 1.0],
+            [1.0, 3.0],
+            [2.0, 3.0],
+            [2.0, 2.0],
+            [3.0, 2.0],
+            [3.0, 0.0],
+        ];
+        let pieces = trapezoids(&outline);
+        let total: f64 = pieces.iter().map(area).sum();
+        // Exact: 1 + 3 + 2.
+        assert!((total - 6.0).abs() < 1e-12, "{total}");
+        assert_eq!(pieces.len(), 3);
+    }
+
+    #[test]
+    fn a_ring_leaves_its_hole_empty() {
+        // A square with a notch cut from its top: a U shape of area 9 - 1 = 8.
+        let u = [
+            [0.0, 0.0],
+            [3.0, 0.0],
+            [3.0, 3.0],
+            [2.0, 3.0],
+            [2.0, 2.0],
+            [1.0, 2.0],
+            [1.0, 3.0],
+            [0.0, 3.0],
+        ];
+        let total: f64 = trapezoids(&u).iter().map(area).sum();
+        assert!((total - 8.0).abs() < 1e-12, "{total}");
     }
 }

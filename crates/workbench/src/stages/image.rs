@@ -24,6 +24,10 @@ pub struct ImageStage {
     pub show_region: bool,
     pixel_size_text: String,
     pixel_size_for: Option<Option<f64>>,
+    /// Scale-bar calibration: on, and the ends clicked so far (image pixels).
+    calibrating: bool,
+    bar_ends: Vec<Pos2>,
+    bar_length_text: String,
 }
 
 impl Default for ImageStage {
@@ -37,6 +41,9 @@ impl Default for ImageStage {
             show_region: true,
             pixel_size_text: String::new(),
             pixel_size_for: None,
+            calibrating: false,
+            bar_ends: Vec::new(),
+            bar_length_text: String::new(),
         }
     }
 }
@@ -69,7 +76,11 @@ impl ImageStage {
     /// Draw the Image stage.
     pub fn ui(&mut self, ui: &mut Ui, view: &View<'_>, actions: &mut Vec<Action>) {
         let Some(at) = view.micrograph_ref() else {
-            ui.label("This grain has no micrograph.");
+            ui.label(if view.grain.is_some() {
+                "This grain has no micrograph."
+            } else {
+                "Select a grain in the study tree."
+            });
             return;
         };
         let Some(spec) = view.doc.micrograph(at) else {
@@ -115,8 +126,67 @@ impl ImageStage {
                 }
             }
         });
+        ui.horizontal(|ui| self.calibration_ui(ui, at, actions));
         let hover = self.canvas_ui(ui, view, true);
         self.hover_line(ui, view, hover);
+    }
+
+    /// The scale-bar tool: click both ends of the bar on the image, type its length.
+    fn calibration_ui(
+        &mut self,
+        ui: &mut Ui,
+        at: crate::document::MicrographRef,
+        actions: &mut Vec<Action>,
+    ) {
+        let toggle = ui
+            .selectable_label(self.calibrating, "Scale bar tool")
+            .on_hover_text("Click both ends of the micrograph's scale bar, then type its length: sets the pixel size");
+        if toggle.clicked() {
+            self.calibrating = !self.calibrating;
+            self.bar_ends.clear();
+        }
+        if !self.calibrating {
+            return;
+        }
+        match self.bar_ends.as_slice() {
+            [] => {
+                ui.label("Click one end of the scale bar.");
+            }
+            [_] => {
+                ui.label("Click the other end.");
+            }
+            [a, b, ..] => {
+                let px = a.distance(*b);
+                ui.label(format!("{px:.1} px long; its length is"));
+                let l = ui.label("");
+                let r = ui
+                    .add(egui::TextEdit::singleline(&mut self.bar_length_text).desired_width(60.0))
+                    .labelled_by(l.id);
+                ui.label("µm");
+                let enter = r.lost_focus() && ui.input(|i| i.key_pressed(egui::Key::Enter));
+                if ui.button("Set pixel size").clicked() || enter {
+                    match self.bar_length_text.trim().parse::<f64>() {
+                        Ok(um) if um > 0.0 && px > 0.0 => {
+                            actions.push(Action::Edit(Command::SetPixelSize {
+                                at,
+                                pixel_size_um: Some(um / f64::from(px)),
+                            }));
+                            self.calibrating = false;
+                            self.bar_ends.clear();
+                        }
+                        _ => {
+                            ui.colored_label(
+                                ui.visuals().warn_fg_color,
+                                "type a length above zero",
+                            );
+                        }
+                    }
+                }
+                if ui.button("Again").clicked() {
+                    self.bar_ends.clear();
+                }
+            }
+        }
     }
 
     /// Fit and zoom buttons, class overlay switch.
@@ -297,6 +367,23 @@ impl ImageStage {
         }
         if let Some(size_um) = spec.and_then(|s| s.pixel_size_um) {
             scale_bar(&painter, rect, zoom, size_um);
+        }
+        if self.calibrating {
+            if response.clicked()
+                && let Some(p) = response.interact_pointer_pos()
+            {
+                if self.bar_ends.len() >= 2 {
+                    self.bar_ends.clear();
+                }
+                self.bar_ends.push(centre + (p - rect.center()) / zoom);
+            }
+            let ends: Vec<Pos2> = self.bar_ends.iter().map(|p| to_screen(*p)).collect();
+            for p in &ends {
+                painter.circle_stroke(*p, 5.0, Stroke::new(2.0, Color32::from_rgb(80, 220, 255)));
+            }
+            if let [a, b] = ends.as_slice() {
+                painter.line_segment([*a, *b], Stroke::new(2.0, Color32::from_rgb(80, 220, 255)));
+            }
         }
         if view.image_busy.is_some() {
             painter.text(

@@ -74,7 +74,11 @@ impl PhasesStage {
         actions: &mut Vec<Action>,
     ) {
         let Some(at) = view.micrograph_ref() else {
-            ui.label("This grain has no micrograph.");
+            ui.label(if view.grain.is_some() {
+                "This grain has no micrograph."
+            } else {
+                "Select a grain in the study tree."
+            });
             return;
         };
         if self.live.as_ref().is_some_and(|(m, _)| *m != at) {

@@ -99,8 +99,12 @@ impl TemperatureStage {
             ui.checkbox(&mut self.compare, "Compare models")
                 .on_hover_text("Draw the solvi of the other built-in models at the same pressure");
         });
+        egui::ScrollArea::vertical().show(ui, |ui| self.figures_ui(ui, view, actions));
+    }
+
+    fn figures_ui(&mut self, ui: &mut Ui, view: &View<'_>, actions: &mut Vec<Action>) {
         let result = view.grain.and_then(|g| view.result(g));
-        let h = (ui.available_height() * 0.55).max(240.0);
+        let h = (ui.available_height() * 0.6).max(320.0);
         ui.columns(2, |cols| {
             figure_with_export(
                 &mut cols[0],
@@ -181,7 +185,7 @@ impl TemperatureStage {
                 }
             }
             let ui = &mut cols[1];
-            let h = ui.available_height().clamp(160.0, 320.0);
+            let h = 260.0;
             figure_with_export(ui, view, FigureKind::Histogram, "Minimum-temperature draws", h, actions);
         });
     }
