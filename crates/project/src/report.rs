@@ -7,6 +7,7 @@
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
+use rayon::prelude::*;
 use solvus::{ModelKind, SolutionModel};
 
 use crate::document::Project;
@@ -66,9 +67,8 @@ fn safe(name: &str) -> String {
 
 /// Build every applicable figure of every grain (micrographs: each one).
 pub fn grain_figures(project: &Project, project_file: &Path, run: &RunResult) -> Vec<GrainFigure> {
-    let mut out = Vec::new();
+    let mut jobs = Vec::new();
     for g in &run.grains {
-        let id = format!("{}/{}", g.sample, g.grain);
         for kind in FigureKind::ALL {
             if !kind.applies_to(g) {
                 continue;
@@ -79,32 +79,36 @@ pub fn grain_figures(project: &Project, project_file: &Path, run: &RunResult) ->
                 1
             };
             for m in 0..count {
-                let options = GrainFigureOptions {
-                    micrograph: m,
-                    ..GrainFigureOptions::default()
-                };
-                let stem = if kind == FigureKind::Micrograph {
-                    format!(
-                        "{}_{}_{}_{}",
-                        safe(&g.sample),
-                        safe(&g.grain),
-                        kind.name(),
-                        safe(&g.micrographs[m].label)
-                    )
-                } else {
-                    format!("{}_{}_{}", safe(&g.sample), safe(&g.grain), kind.name())
-                };
-                out.push(GrainFigure {
-                    grain: id.clone(),
-                    kind,
-                    stem,
-                    figure: grain_figure(kind, project, project_file, g, &options)
-                        .map_err(|e| e.to_string()),
-                });
+                jobs.push((g, kind, m));
             }
         }
     }
-    out
+    jobs.par_iter()
+        .map(|&(g, kind, m)| {
+            let options = GrainFigureOptions {
+                micrograph: m,
+                ..GrainFigureOptions::default()
+            };
+            let stem = if kind == FigureKind::Micrograph {
+                format!(
+                    "{}_{}_{}_{}",
+                    safe(&g.sample),
+                    safe(&g.grain),
+                    kind.name(),
+                    safe(&g.micrographs[m].label)
+                )
+            } else {
+                format!("{}_{}_{}", safe(&g.sample), safe(&g.grain), kind.name())
+            };
+            GrainFigure {
+                grain: format!("{}/{}", g.sample, g.grain),
+                kind,
+                stem,
+                figure: grain_figure(kind, project, project_file, g, &options)
+                    .map_err(|e| e.to_string()),
+            }
+        })
+        .collect()
 }
 
 fn f3(v: f64) -> String {
@@ -588,6 +592,9 @@ pub fn to_html(blocks: &[Block]) -> String {
     out
 }
 
+/// A figure file's path and its bytes, or why it could not be encoded.
+type EncodedFile = (PathBuf, Result<Vec<u8>, String>);
+
 /// What [`write_report`] wrote.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ReportFiles {
@@ -622,27 +629,38 @@ pub fn write_report(
     let figures = grain_figures(project, project_file, run);
     let mut written = Vec::new();
     let mut problems = Vec::new();
+    // encode on all cores (figures are independent), write in order
+    let encoded: Vec<Vec<EncodedFile>> = figures
+        .par_iter()
+        .map(|f| match &f.figure {
+            Ok(fig) => [
+                ("svg", render::Format::Svg),
+                ("png", render::Format::Png),
+                ("pdf", render::Format::Pdf),
+            ]
+            .into_iter()
+            .map(|(ext, format)| {
+                (
+                    fig_dir.join(format!("{}.{ext}", f.stem)),
+                    render::encode(fig, format, REPORT_DPI).map_err(|e| e.to_string()),
+                )
+            })
+            .collect(),
+            Err(_) => Vec::new(),
+        })
+        .collect();
     for f in &figures {
-        let fig = match &f.figure {
-            Ok(fig) => fig,
-            Err(e) => {
-                problems.push(format!("{} {}: {e}", f.grain, f.kind.name()));
-                continue;
+        if let Err(e) = &f.figure {
+            problems.push(format!("{} {}: {e}", f.grain, f.kind.name()));
+        }
+    }
+    for (path, bytes) in encoded.into_iter().flatten() {
+        match bytes {
+            Ok(bytes) => {
+                write_atomically(&path, &bytes)?;
+                written.push(path);
             }
-        };
-        for (ext, format) in [
-            ("svg", render::Format::Svg),
-            ("png", render::Format::Png),
-            ("pdf", render::Format::Pdf),
-        ] {
-            let path = fig_dir.join(format!("{}.{ext}", f.stem));
-            match render::encode(fig, format, REPORT_DPI) {
-                Ok(bytes) => {
-                    write_atomically(&path, &bytes)?;
-                    written.push(path);
-                }
-                Err(e) => problems.push(format!("{}: {e}", path.display())),
-            }
+            Err(e) => problems.push(format!("{}: {e}", path.display())),
         }
     }
     let blocks = report_blocks(project, run, &figures);

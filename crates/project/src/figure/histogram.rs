@@ -92,7 +92,7 @@ pub fn min_temperature_figure(
         edges[0] - 0.05 * span,
         edges[edges.len() - 1] + 0.05 * span,
     );
-    let y = Axis::new("Draws per bin", 0.0, top * 1.3);
+    let y = Axis::new("Draws per bin", 0.0, top * 1.5);
     let mut fig = Figure::new(size, Frame::Cartesian { x, y });
     fig.title = format!("{id}: Monte Carlo minimum temperature");
     fig.height_mm = fig.width_mm * 0.7;
@@ -115,12 +115,12 @@ pub fn min_temperature_figure(
     let med_style = Style::solid(palette::VERMILLION, 1.2);
     let ci_style = Style::dashed(palette::VERMILLION, 0.8, Dash::Dashed);
     fig.items.push(Item::Line(Polyline {
-        points: vec![[median, 0.0], [median, top * 1.3]],
+        points: vec![[median, 0.0], [median, top * 1.5]],
         style: med_style,
     }));
     for v in [p_lo, p_hi] {
         fig.items.push(Item::Line(Polyline {
-            points: vec![[v, 0.0], [v, top * 1.3]],
+            points: vec![[v, 0.0], [v, top * 1.5]],
             style: ci_style,
         }));
     }

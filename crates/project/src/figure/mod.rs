@@ -154,8 +154,8 @@ pub mod palette {
     pub const GREY: Rgb = Rgb(0x99, 0x99, 0x99);
     /// Light grey for grid lines.
     pub const LIGHT_GREY: Rgb = Rgb(0xDD, 0xDD, 0xDD);
-    /// Series colours in order of use.
-    pub const SERIES: [Rgb; 5] = [BLUE, VERMILLION, GREEN, PURPLE, ORANGE];
+    /// Series colours in order of use (vermillion and sky blue are kept for data points).
+    pub const SERIES: [Rgb; 5] = [BLUE, GREEN, PURPLE, ORANGE, BLACK];
 }
 
 /// Line dash pattern.
@@ -489,6 +489,41 @@ impl Figure {
         }
     }
 
+    /// The figure with y pointing up everywhere: a plain frame drawn y-down (an image, bottom
+    /// value above the top value) gets every y negated and its range swapped. For plot widgets
+    /// that cannot invert an axis (egui_plot); the exporters do not need it.
+    pub fn with_y_up(&self) -> Figure {
+        let Frame::Plain { x, y } = &self.frame else {
+            return self.clone();
+        };
+        if y.0 <= y.1 {
+            return self.clone();
+        }
+        let flip = |p: &[f64; 2]| [p[0], -p[1]];
+        let mut fig = self.clone();
+        fig.frame = Frame::Plain {
+            x: *x,
+            y: (-y.0, -y.1),
+        };
+        for item in &mut fig.items {
+            match item {
+                Item::Line(l) => l.points.iter_mut().for_each(|p| *p = flip(p)),
+                Item::Polygon(p) => p.points.iter_mut().for_each(|q| *q = flip(q)),
+                Item::Markers(m) => m.points.iter_mut().for_each(|p| *p = flip(p)),
+                Item::ErrorBar(e) => {
+                    e.at = flip(&e.at);
+                    e.y = e.y.map(|(lo, hi)| (-hi, -lo));
+                }
+                Item::Label(l) => l.at = flip(&l.at),
+                Item::Image(i) => {
+                    i.top_left = flip(&i.top_left);
+                    i.bottom_right = flip(&i.bottom_right);
+                }
+            }
+        }
+        fig
+    }
+
     /// All polylines of the figure.
     pub fn lines(&self) -> impl Iterator<Item = &Polyline> {
         self.items.iter().filter_map(|i| match i {
@@ -609,6 +644,32 @@ pub fn nice_step(raw: f64) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn y_up_keeps_the_page_layout() {
+        // an image frame drawn y-down and its y-up copy put every point at the same page place
+        let mut fig = Figure::new(
+            FigureSize::SingleColumn,
+            Frame::Plain {
+                x: (0.0, 100.0),
+                y: (80.0, 0.0),
+            },
+        );
+        fig.items.push(Item::Line(Polyline {
+            points: vec![[10.0, 5.0], [90.0, 70.0]],
+            style: Style::solid(palette::BLACK, 1.0),
+        }));
+        let up = fig.with_y_up();
+        let (a, b) = (render::layout(&fig), render::layout(&up));
+        let (Item::Line(l1), Item::Line(l2)) = (&fig.items[0], &up.items[0]) else {
+            panic!()
+        };
+        for (p, q) in l1.points.iter().zip(&l2.points) {
+            let (pa, pb) = (a.to_page(*p), b.to_page(*q));
+            assert!((pa[0] - pb[0]).abs() < 1e-9 && (pa[1] - pb[1]).abs() < 1e-9);
+        }
+        assert_eq!(l2.points[0], [10.0, -5.0]);
+    }
 
     #[test]
     fn text_runs_split_sub_and_superscripts() {

@@ -248,7 +248,7 @@ fn marker_svg(
         colour.hex(),
         n(stroke_w),
         if opacity < 1.0 {
-            format!(r#" opacity="{}""#, n(opacity))
+            format!(r#" fill-opacity="{0}" stroke-opacity="{0}""#, n(opacity))
         } else {
             String::new()
         }
@@ -328,7 +328,7 @@ fn marker_svg(
                 colour.hex(),
                 n(stroke_w * 1.4),
                 if opacity < 1.0 {
-                    format!(r#" opacity="{}""#, n(opacity))
+                    format!(r#" fill-opacity="{0}" stroke-opacity="{0}""#, n(opacity))
                 } else {
                     String::new()
                 }

@@ -190,8 +190,13 @@ pub fn solvus_figure(
             points: binodal,
             style,
         }));
+        let t_c = celsius_from_kelvin(curve.critical.temperature_k);
         fig.legend.push(LegendEntry {
-            label: short_citation(model),
+            label: if models.len() > 1 {
+                format!("{}, T_{{c}} {t_c:.0} °C", short_citation(model))
+            } else {
+                short_citation(model)
+            },
             symbol: LegendSymbol::Line(style),
         });
         if options.spinodal {
@@ -226,15 +231,17 @@ pub fn solvus_figure(
             fill: Some(colour),
             opacity: 1.0,
         }));
-        fig.items.push(Item::Label(Label {
-            at: top,
-            offset_pt: [0.0, 6.0 + 8.0 * k as f64],
-            text: format!("{:.0} °C", top[1]),
-            size_pt: f,
-            colour,
-            anchor: Anchor::Middle,
-            halo: true,
-        }));
+        if models.len() == 1 {
+            fig.items.push(Item::Label(Label {
+                at: top,
+                offset_pt: [0.0, 7.0],
+                text: format!("{:.0} °C", top[1]),
+                size_pt: f,
+                colour,
+                anchor: Anchor::Middle,
+                halo: true,
+            }));
+        }
     }
     if options.spinodal {
         fig.legend.push(LegendEntry {
