@@ -36,6 +36,8 @@ enum Command {
     Run(cli::run::RunArgs),
     /// One figure of a grain (solvus, ternary, histogram, micrograph) as SVG, PNG or PDF.
     Figure(cli::figure::FigureArgs),
+    /// Pyroxene temperature of a clinopyroxene (and orthopyroxene) spot from a CSV of analyses.
+    PxTemp(cli::px_temp::PxTempArgs),
 }
 
 fn main() -> ExitCode {
@@ -49,6 +51,7 @@ fn main() -> ExitCode {
         Some(Command::Models(args)) => cli::solvus::run_models(&args),
         Some(Command::Run(args)) => cli::run::run(&args),
         Some(Command::Figure(args)) => cli::figure::run(&args),
+        Some(Command::PxTemp(args)) => cli::px_temp::run(&args),
         // No subcommand: the workbench window, on the last project or the bundled demo.
         None => workbench::run(None).map_err(anyhow::Error::from),
     };

@@ -3,6 +3,7 @@
 
 pub mod figure;
 pub mod formula;
+pub mod px_temp;
 pub mod run;
 pub mod segment;
 pub mod solvus;

@@ -61,6 +61,12 @@ pub struct Settings {
     pub pair_uncertainty: f64,
     /// Leave out spot analyses with quality warnings.
     pub exclude_flagged_analyses: bool,
+    /// Two-pyroxene thermometer for a pyroxene grain's host-lamella pair (`bk1990`,
+    /// `wells1977`, `putirka2008-36`, `putirka2008-37`).
+    pub pyroxene_pair_thermometer: String,
+    /// Clinopyroxene thermometer for a pyroxene grain's reintegrated bulk, its minimum
+    /// crystallisation temperature (`putirka2008-32d`).
+    pub pyroxene_bulk_thermometer: String,
 }
 
 impl Default for Settings {
@@ -76,6 +82,8 @@ impl Default for Settings {
             composition_spread: CompositionSpread::StandardError,
             pair_uncertainty: 0.02,
             exclude_flagged_analyses: true,
+            pyroxene_pair_thermometer: "bk1990".into(),
+            pyroxene_bulk_thermometer: "putirka2008-32d".into(),
         }
     }
 }

@@ -55,6 +55,10 @@ fn grain_json(g: &GrainResult) -> Value {
         "volume_fractions": g.reintegration.volume_fractions,
         "min_temperature_c": g.min_temperature().map(summary_json),
         "min_temperature_outcomes": g.monte_carlo.outcomes,
+        "pyroxene_pair_temperature": g.pyroxene_pair.as_ref().map(|t| json!({
+            "thermometer": t.thermometer.id(), "temperature_c": t.temperature_c,
+            "see_c": t.see_c, "warnings": t.warnings,
+        })),
         "exsolution_temperature_c": g.pair.as_ref().map(|p| json!({
             "t_ab": p.temperatures_c[0], "t_or": p.temperatures_c[1], "t_an": p.temperatures_c[2],
             "spread": p.spread_c, "adjusted": p.adjusted_c, "concordant": p.concordant,
@@ -254,6 +258,15 @@ pub fn summary_text(project: &Project, run: &RunResult) -> String {
                 show(p.temperatures_c[1]),
                 show(p.temperatures_c[2]),
                 show(p.adjusted_c)
+            );
+        }
+        if let Some(t) = &g.pyroxene_pair {
+            let _ = writeln!(
+                out,
+                "  lamella pair ({}): {:.0} C ± {:.0} C (published SEE)",
+                t.thermometer.id(),
+                t.temperature_c,
+                t.see_c
             );
         }
         for n in &g.notes {

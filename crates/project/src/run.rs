@@ -19,6 +19,7 @@ use reintegration::{
 };
 use serde::Serialize;
 use solvus::model::{Composition, SolutionModel};
+use solvus::pyroxene::{PyroxeneTemperature, PyroxeneThermometer, pyroxene_temperature};
 use solvus::thermometry::{AdjustmentOutcome, adjust_pair, pair_temperatures};
 use solvus::units::{bar_from_kbar, celsius_from_kelvin};
 
@@ -117,6 +118,8 @@ pub struct GrainResult {
     pub monte_carlo: MonteCarloResult,
     /// Lamella pair temperature (feldspar, two phases).
     pub pair: Option<PairResult>,
+    /// Two-pyroxene temperature of the host-lamella pair (pyroxene, two phases).
+    pub pyroxene_pair: Option<PyroxeneTemperature>,
     /// Notes and warnings for the user.
     pub notes: Vec<String>,
 }
@@ -493,16 +496,34 @@ fn run_grain(
             })
             .collect(),
     };
-    let (excess, thermometer): (&dyn ExcessVolume, Option<SolvusThermometer>) = match grain.system {
-        MineralSystem::Feldspar => (
-            model,
-            Some(SolvusThermometer {
-                model: model.clone(),
-            }),
-        ),
-        MineralSystem::Pyroxene => (&IdealVolume, None),
+    let excess: &dyn ExcessVolume = match grain.system {
+        MineralSystem::Feldspar => model,
+        MineralSystem::Pyroxene => &IdealVolume,
     };
     let reintegrated = reintegrate(&input, &settings.volumes, excess).map_err(|e| e.to_string())?;
+    let thermometer: Option<Box<dyn BulkThermometer>> = match grain.system {
+        MineralSystem::Feldspar => Some(Box::new(SolvusThermometer {
+            model: model.clone(),
+        })),
+        MineralSystem::Pyroxene => {
+            let id = &settings.pyroxene_bulk_thermometer;
+            let thermometer = PyroxeneThermometer::from_id(id)
+                .filter(|t| !t.needs_pair())
+                .ok_or_else(|| {
+                    format!("settings.pyroxene_bulk_thermometer: '{id}' is not a clinopyroxene-only thermometer (use putirka2008-32d)")
+                })?;
+            let bulk = Analysis {
+                oxides_wt: reintegrated.bulk_oxides_wt.clone(),
+                ..Analysis::default()
+            };
+            crate::px::thermometry_cations(&bulk).map(|reference| {
+                Box::new(crate::px::PyroxeneBulkThermometer {
+                    thermometer,
+                    reference,
+                }) as Box<dyn BulkThermometer>
+            })
+        }
+    };
     let mc_settings = MonteCarloSettings {
         draws: settings.draws,
         seed: settings.seed,
@@ -516,7 +537,7 @@ fn run_grain(
         &input,
         &settings.volumes,
         excess,
-        thermometer.as_ref().map(|t| t as &dyn BulkThermometer),
+        thermometer.as_deref(),
         &mc_settings,
         control,
     )
@@ -544,8 +565,31 @@ fn run_grain(
             mc.first_refusal.as_ref().map(|r| format!(": {r}")).unwrap_or_default()
         ));
     }
+    let pyroxene_pair = if grain.system == MineralSystem::Pyroxene && phases.len() == 2 {
+        let result = pyroxene_pair_temperature(
+            &settings.pyroxene_pair_thermometer,
+            &phases,
+            settings.pressure_kbar,
+        );
+        match result {
+            Ok(t) => {
+                notes.extend(t.warnings.iter().map(|w| format!("pyroxene pair: {w}")));
+                Some(t)
+            }
+            Err(e) => {
+                notes.push(format!("pyroxene pair: no temperature: {e}"));
+                None
+            }
+        }
+    } else {
+        None
+    };
     if grain.system == MineralSystem::Pyroxene {
-        notes.push("pyroxene: bulk and lamella thermometers are not in this version; the bulk composition is reported without a temperature".into());
+        notes.push(format!(
+            "minimum crystallisation temperature from {} on the reintegrated clinopyroxene (published SEE {} C, not included in the interval)",
+            settings.pyroxene_bulk_thermometer,
+            PyroxeneThermometer::from_id(&settings.pyroxene_bulk_thermometer).map_or(0.0, |t| t.see_c())
+        ));
     }
     let pair = (grain.system == MineralSystem::Feldspar && phases.len() == 2)
         .then(|| {
@@ -573,6 +617,38 @@ fn run_grain(
         reintegration: reintegrated,
         monte_carlo: mc,
         pair,
+        pyroxene_pair,
         notes,
     })
+}
+
+/// The two-pyroxene temperature of a grain's pair: the phase richer in Ca is the
+/// clinopyroxene.
+fn pyroxene_pair_temperature(
+    id: &str,
+    phases: &[PhaseResult],
+    pressure_kbar: f64,
+) -> Result<PyroxeneTemperature, String> {
+    let thermometer = PyroxeneThermometer::from_id(id)
+        .filter(|t| t.needs_pair())
+        .ok_or_else(|| {
+            format!("settings.pyroxene_pair_thermometer: '{id}' is not a two-pyroxene thermometer")
+        })?;
+    let cations: Vec<_> = phases
+        .iter()
+        .map(|p| {
+            let a = Analysis {
+                oxides_wt: p.mean_oxides_wt.clone(),
+                ..Analysis::default()
+            };
+            crate::px::thermometry_cations(&a)
+                .ok_or_else(|| format!("phase '{}' has no usable oxides", p.label))
+        })
+        .collect::<Result<_, _>>()?;
+    let (cpx, opx) = if cations[0].ca >= cations[1].ca {
+        (&cations[0], &cations[1])
+    } else {
+        (&cations[1], &cations[0])
+    };
+    pyroxene_temperature(thermometer, cpx, Some(opx), pressure_kbar).map_err(|e| e.to_string())
 }
