@@ -73,7 +73,16 @@ pub fn ui(
             }
         });
         ui.menu_button("View", |ui| {
-            egui::widgets::global_theme_preference_buttons(ui);
+            ui.label("Theme");
+            for (label, theme) in [
+                ("Follow the system", egui::ThemePreference::System),
+                ("Light", egui::ThemePreference::Light),
+                ("Dark", egui::ThemePreference::Dark),
+            ] {
+                if ui.button(label).clicked() {
+                    ui.ctx().set_theme(theme);
+                }
+            }
         });
         ui.separator();
         let title = match &view.doc.path {

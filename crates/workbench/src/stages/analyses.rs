@@ -116,11 +116,28 @@ pub fn ui(ui: &mut Ui, view: &View<'_>, actions: &mut Vec<Action>) {
                                 }
                                 None => ui.weak("—"),
                             };
-                            let text: Vec<String> = flags.iter().map(|f| f.message()).collect();
-                            if text.is_empty() {
-                                ui.weak("");
+                            // Warnings in full; notes (values below detection counted as zero) on hover.
+                            let warnings: Vec<String> = flags
+                                .iter()
+                                .filter(|f| !f.is_note())
+                                .map(|f| f.message())
+                                .collect();
+                            let notes: Vec<String> = flags
+                                .iter()
+                                .filter(|f| f.is_note())
+                                .map(|f| f.message())
+                                .collect();
+                            let r = if warnings.is_empty() {
+                                ui.weak(if notes.is_empty() {
+                                    String::new()
+                                } else {
+                                    format!("{} notes", notes.len())
+                                })
                             } else {
-                                ui.colored_label(colour, text.join("; "));
+                                ui.colored_label(colour, warnings.join("; "))
+                            };
+                            if !notes.is_empty() {
+                                r.on_hover_text(notes.join("\n"));
                             }
                             ui.end_row();
                         }
