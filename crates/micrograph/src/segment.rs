@@ -52,8 +52,11 @@ pub enum VoidDetection {
 }
 
 /// Settings of [`segment`]. `Default` gives 2 phases, Otsu levels refined to mode midpoints,
-/// automatic voids with a 2-pixel rim, features under 4 px removed.
+/// automatic voids with a 2-pixel rim, features under 4 px removed. Missing fields of a stored
+/// settings object take their defaults, so project files written before a field existed still
+/// load.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(default)]
 pub struct SegmentSettings {
     /// Number of mineral phases N (2..=16).
     pub classes: usize,
