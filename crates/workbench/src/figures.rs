@@ -147,7 +147,8 @@ pub fn figure_ui(ui: &mut Ui, id: &str, fig: &Figure, height: f32, small: bool) 
                     Line::new("", l.points.clone())
                         .color(on_screen(l.style.colour, dark))
                         .width(l.style.width_pt as f32 * PT)
-                        .style(style(l.style.dash)),
+                        .style(style(l.style.dash))
+                        .allow_band(false),
                 ),
                 Item::Polygon(p) => {
                     // egui fills convex shapes only: fill the polygon as trapezoids, then stroke
@@ -164,14 +165,14 @@ pub fn figure_ui(ui: &mut Ui, id: &str, fig: &Figure, height: f32, small: bool) 
                         }
                     }
                     if let Some(s) = p.stroke {
-                        let mut outline = p.points.clone();
-                        if let Some(first) = outline.first().copied() {
-                            outline.push(first);
-                        }
-                        pui.line(
-                            Line::new("", outline)
-                                .color(on_screen(s.colour, dark))
-                                .width(s.width_pt as f32 * PT)
+                        // The outline as the polygon's own stroke (no fill): a closed path.
+                        pui.add(
+                            Polygon::new("", p.points.clone())
+                                .fill_color(Color32::TRANSPARENT)
+                                .stroke(Stroke::new(
+                                    s.width_pt as f32 * PT,
+                                    on_screen(s.colour, dark),
+                                ))
                                 .style(style(s.dash))
                                 .allow_hover(false),
                         );
