@@ -104,7 +104,8 @@ pub struct Reintegration {
     pub mass: Vec<f64>,
     /// Bulk oxide wt% by the mass route.
     pub bulk_oxides_wt: BTreeMap<Oxide, f64>,
-    /// Largest difference between the two routes, mole fraction.
+    /// Largest difference between the two routes, mole fraction (for pyroxene in Wo, En, Fs; see
+    /// [`MineralSystem::comparison_coordinates`]).
     pub route_difference: f64,
     /// Notes for the user (inconsistent densities, routes that disagree).
     pub notes: Vec<String>,
@@ -254,9 +255,11 @@ pub fn reintegrate(
                 place: "bulk".into(),
                 message: "the mass-route bulk analysis has none of the system's cations".into(),
             })?;
-    let route_difference = molar
+    let route_difference = grain
+        .system
+        .comparison_coordinates(&molar)
         .iter()
-        .zip(&mass)
+        .zip(&grain.system.comparison_coordinates(&mass))
         .map(|(a, b)| (a - b).abs())
         .fold(0.0, f64::max);
     if route_difference > 0.005 {

@@ -35,6 +35,20 @@ impl MineralSystem {
         }
     }
 
+    /// Coordinates in which two compositions of this system are compared: the basis fractions
+    /// for feldspar; Wo, En, Fs (Ca, Mg, Fe over their sum) for pyroxene, because an analysis
+    /// fixes those cation ratios but not how Ca-bearing and Ca-free parts share Mg and Fe.
+    pub fn comparison_coordinates(self, fractions: &[f64]) -> Vec<f64> {
+        match (self, fractions) {
+            (MineralSystem::Pyroxene, [di, hd, en, fs]) => {
+                let (ca, mg, fe) = (di + hd, di + 2.0 * en, hd + 2.0 * fs);
+                let sum = ca + mg + fe;
+                vec![ca / sum, mg / sum, fe / sum]
+            }
+            _ => fractions.to_vec(),
+        }
+    }
+
     /// End-member fractions of an oxide analysis over [`Self::basis`], normalised to one.
     ///
     /// Feldspar: X_Ab, X_Or, X_An of the 8-oxygen formula, renormalised over the three (Ba and Sr

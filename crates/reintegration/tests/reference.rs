@@ -439,7 +439,8 @@ fn augite_and_pigeonite_reintegrate_alike_by_both_routes() {
     // Source: design §3.2 (routes agree when rho = M/V) with Holland & Powell (2011) volumes of
     // diopside, hedenbergite, enstatite and ferrosilite; a synthetic augite (Di 0.62 Hd 0.20
     // En 0.10 Fs 0.08) with pigeonite lamellae (Di 0.08 Hd 0.04 En 0.52 Fs 0.36), stoichiometric
-    // oxide analyses, area fractions 0.7 / 0.3. Tolerance 1e-9: the routes are algebraically equal.
+    // oxide analyses, area fractions 0.7 / 0.3. Tolerance 1e-9: the routes are algebraically equal
+    // in Wo, En, Fs (the cation ratios an analysis fixes).
     let basis = MineralSystem::Pyroxene.basis();
     let px = |label: &str, x: [f64; 4]| {
         let mix: Vec<(EndMember, f64)> = basis.iter().copied().zip(x).collect();
