@@ -91,9 +91,19 @@ pub fn ui(ui: &mut Ui, view: &View<'_>, actions: &mut Vec<Action>) {
                     ));
                 }
             }
-            None => {
-                ui.weak("no pair thermometer for this grain");
-            }
+            None => match &result.pyroxene_pair {
+                Some(t) => {
+                    ui.label(format!(
+                        "{:.0} °C ± {:.0} °C ({})",
+                        t.temperature_c,
+                        t.see_c,
+                        t.thermometer.id()
+                    ));
+                }
+                None => {
+                    ui.weak("no pair thermometer for this grain");
+                }
+            },
         }
         if result.system == reintegration::MineralSystem::Feldspar {
             ui.add_space(6.0);

@@ -180,9 +180,22 @@ impl TemperatureStage {
                         ui.weak(n);
                     }
                 }
-                None => {
-                    ui.weak("no pair thermometer for this grain");
-                }
+                None => match &r.pyroxene_pair {
+                    Some(t) => {
+                        ui.label(format!(
+                            "Two-pyroxene temperature: {:.0} °C ± {:.0} °C (published standard error), {}",
+                            t.temperature_c,
+                            t.see_c,
+                            t.thermometer.id()
+                        ));
+                        for w in &t.warnings {
+                            ui.weak(w);
+                        }
+                    }
+                    None => {
+                        ui.weak("no pair thermometer for this grain");
+                    }
+                },
             }
             let ui = &mut cols[1];
             let h = 260.0;
