@@ -139,89 +139,100 @@ fn flags_json(flags: &[Flag]) -> Value {
     )
 }
 
-fn id_json(table: &SpotTable, index: usize) -> (String, Value) {
-    let a = &table.analyses[index];
-    let label = a.id.label();
-    (
-        label.clone(),
-        json!({
-            "id": label,
-            "sample": a.id.sample, "grain": a.id.grain, "phase": a.id.phase, "spot": a.id.spot,
-            "line": table.lines[index],
-        }),
-    )
+/// The parts of a computed formula that a row shows, whatever the mineral.
+struct Computed {
+    cations: Cations,
+    end_members: Value,
+    /// Mineral-specific JSON fields beyond the common ones.
+    extra: Vec<(&'static str, Value)>,
+    /// Values for the table's mineral-specific columns.
+    columns: Vec<f64>,
+    total_wt: f64,
+    flags: Vec<Flag>,
+}
+
+/// One table row and JSON object per analysis, from a per-analysis formula calculation.
+fn rows(table: &SpotTable, compute: impl Fn(&mineral::Analysis) -> Computed) -> Vec<Row> {
+    table
+        .analyses
+        .iter()
+        .zip(&table.lines)
+        .map(|(a, &line)| {
+            let c = compute(a);
+            let label = a.id.label();
+            let mut map = serde_json::Map::new();
+            map.insert("id".into(), json!(label));
+            map.insert("sample".into(), json!(a.id.sample));
+            map.insert("grain".into(), json!(a.id.grain));
+            map.insert("phase".into(), json!(a.id.phase));
+            map.insert("spot".into(), json!(a.id.spot));
+            map.insert("line".into(), json!(line));
+            map.insert("cations".into(), cations_json(&c.cations));
+            map.insert("end_members".into(), c.end_members);
+            for (key, value) in c.extra {
+                map.insert(key.into(), value);
+            }
+            map.insert("total_wt".into(), json!(c.total_wt));
+            map.insert("flags".into(), flags_json(&c.flags));
+            Row {
+                label,
+                line,
+                json: Value::Object(map),
+                cations: c.cations,
+                columns: c.columns,
+                total_wt: c.total_wt,
+                flags: c.flags,
+            }
+        })
+        .collect()
 }
 
 fn feldspar_rows(table: &SpotTable, iron: FeldsparIron, limits: &QualityLimits) -> Vec<Row> {
-    (0..table.analyses.len())
-        .map(|i| {
-            let f = feldspar_formula(&table.analyses[i], iron, limits);
-            let (label, mut json) = id_json(table, i);
-            let e = f.end_members;
-            if let Value::Object(map) = &mut json {
-                map.insert("cations".into(), cations_json(&f.cations));
-                map.insert(
-                    "end_members".into(),
-                    json!({"x_ab": e.x_ab, "x_or": e.x_or, "x_an": e.x_an, "x_cn": e.x_cn, "x_sr": e.x_sr}),
-                );
-                map.insert("tetrahedral_sum".into(), json!(f.tetrahedral_sum));
-                map.insert("large_cation_sum".into(), json!(f.large_cation_sum));
-                map.insert("total_wt".into(), json!(f.total_wt));
-                map.insert("flags".into(), flags_json(&f.flags));
-            }
-            Row {
-                label,
-                line: table.lines[i],
-                json,
-                columns: vec![
-                    e.x_ab,
-                    e.x_or,
-                    e.x_an,
-                    e.x_cn,
-                    f.tetrahedral_sum,
-                    f.large_cation_sum,
-                ],
-                cations: f.cations,
-                total_wt: f.total_wt,
-                flags: f.flags,
-            }
-        })
-        .collect()
+    rows(table, |a| {
+        let f = feldspar_formula(a, iron, limits);
+        let e = f.end_members;
+        Computed {
+            end_members: json!({"x_ab": e.x_ab, "x_or": e.x_or, "x_an": e.x_an, "x_cn": e.x_cn, "x_sr": e.x_sr}),
+            extra: vec![
+                ("tetrahedral_sum", json!(f.tetrahedral_sum)),
+                ("large_cation_sum", json!(f.large_cation_sum)),
+            ],
+            columns: vec![
+                e.x_ab,
+                e.x_or,
+                e.x_an,
+                e.x_cn,
+                f.tetrahedral_sum,
+                f.large_cation_sum,
+            ],
+            cations: f.cations,
+            total_wt: f.total_wt,
+            flags: f.flags,
+        }
+    })
 }
 
 fn pyroxene_rows(table: &SpotTable, iron: PyroxeneIron, limits: &QualityLimits) -> Vec<Row> {
-    (0..table.analyses.len())
-        .map(|i| {
-            let f = pyroxene_formula(&table.analyses[i], iron, limits);
-            let (label, mut json) = id_json(table, i);
-            let e = f.end_members;
-            if let Value::Object(map) = &mut json {
-                map.insert("cations".into(), cations_json(&f.cations));
-                map.insert(
-                    "end_members".into(),
-                    json!({"wo": e.wo, "en": e.en, "fs": e.fs, "jd": e.jd, "ae": e.ae}),
-                );
-                map.insert("mg_number".into(), json!(f.mg_number));
-                map.insert("x_fe".into(), json!(f.x_fe));
-                map.insert("fe3_over_fe_total".into(), json!(f.fe3_over_fe_total));
-                map.insert(
-                    "sites".into(),
+    rows(table, |a| {
+        let f = pyroxene_formula(a, iron, limits);
+        let e = f.end_members;
+        Computed {
+            end_members: json!({"wo": e.wo, "en": e.en, "fs": e.fs, "jd": e.jd, "ae": e.ae}),
+            extra: vec![
+                ("mg_number", json!(f.mg_number)),
+                ("x_fe", json!(f.x_fe)),
+                ("fe3_over_fe_total", json!(f.fe3_over_fe_total)),
+                (
+                    "sites",
                     json!({"t": cations_json(&f.sites.t), "m1": cations_json(&f.sites.m1), "m2": cations_json(&f.sites.m2)}),
-                );
-                map.insert("total_wt".into(), json!(f.total_wt));
-                map.insert("flags".into(), flags_json(&f.flags));
-            }
-            Row {
-                label,
-                line: table.lines[i],
-                json,
-                columns: vec![e.wo, e.en, e.fs, e.jd, e.ae, f.mg_number],
-                cations: f.cations,
-                total_wt: f.total_wt,
-                flags: f.flags,
-            }
-        })
-        .collect()
+                ),
+            ],
+            columns: vec![e.wo, e.en, e.fs, e.jd, e.ae, f.mg_number],
+            cations: f.cations,
+            total_wt: f.total_wt,
+            flags: f.flags,
+        }
+    })
 }
 
 fn print_table(table: &SpotTable, headers: &[&str], rows: &[Row], iron_note: &str) {
