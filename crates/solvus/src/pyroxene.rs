@@ -199,19 +199,84 @@ impl PyroxeneThermometer {
         self != PyroxeneThermometer::Putirka2008Eq32d
     }
 
-    /// Published standard error of estimate, °C (for the whole calibration data set).
-    ///
-    /// Putirka (2008): eq. 36 ±56, eq. 37 ±60, eq. 32d ±58 (anhydrous); Brey & Köhler (1990) as
-    /// tested by Putirka (2008): ±70; Wells (1977): ±70 (from memory).
+    /// Published standard error of estimate, °C, over the whole calibration data set
+    /// ([`Calibration::see_all_c`]).
     pub fn see_c(self) -> f64 {
-        match self {
-            PyroxeneThermometer::BreyKohler1990 => 70.0,
-            PyroxeneThermometer::Wells1977 => 70.0,
-            PyroxeneThermometer::Putirka2008Eq36 => 56.0,
-            PyroxeneThermometer::Putirka2008Eq37 => 60.0,
-            PyroxeneThermometer::Putirka2008Eq32d => 58.0,
+        self.calibration().see_all_c
+    }
+
+    /// Standard error of estimate for a clinopyroxene of this Mg# (Mg / (Mg + ΣFe)): the smaller
+    /// published value for Mg# ≥ 0.75 where there is one, else the whole-data value.
+    pub fn see_for_mg_number(self, mg_number: f64) -> f64 {
+        let c = self.calibration();
+        match c.see_high_mg_c {
+            Some(see) if mg_number >= 0.75 => see,
+            _ => c.see_all_c,
         }
     }
+
+    /// What is known of the thermometer's calibration: its standard errors and the range of
+    /// temperature and pressure of the experiments it was fitted to.
+    ///
+    /// Standard errors of Brey & Köhler (1990), Putirka (2008) eqs 36, 37 and 32d as tested by
+    /// Putirka (2008), in the form the Thermobar library documents them (version 1.0.75, the
+    /// docstrings of `T_Brey1990`, `T_Put2008_eq36`, `T_Put2008_eq37`, `T_Put2008_eq32d`);
+    /// Wells (1977) ±70 °C from memory. The temperature and pressure ranges are approximate and
+    /// from memory: they flag a result far outside the experiments, not a fine boundary.
+    pub fn calibration(self) -> Calibration {
+        match self {
+            PyroxeneThermometer::BreyKohler1990 => Calibration {
+                see_all_c: 70.0,
+                see_high_mg_c: Some(50.0),
+                temperature_c: (900.0, 1400.0),
+                pressure_kbar: (10.0, 60.0),
+                basis: "experiments on natural lherzolite compositions; ranges from memory",
+            },
+            PyroxeneThermometer::Wells1977 => Calibration {
+                see_all_c: 70.0,
+                see_high_mg_c: None,
+                temperature_c: (800.0, 1600.0),
+                pressure_kbar: (0.0, 40.0),
+                basis: "experiments in simple and natural systems; standard error and ranges from memory",
+            },
+            PyroxeneThermometer::Putirka2008Eq36 => Calibration {
+                see_all_c: 56.0,
+                see_high_mg_c: Some(45.0),
+                temperature_c: (750.0, 1600.0),
+                pressure_kbar: (0.0, 60.0),
+                basis: "experimental cpx-opx pairs; ranges from memory",
+            },
+            PyroxeneThermometer::Putirka2008Eq37 => Calibration {
+                see_all_c: 60.0,
+                see_high_mg_c: Some(38.0),
+                temperature_c: (750.0, 1600.0),
+                pressure_kbar: (0.0, 60.0),
+                basis: "experimental cpx-opx pairs, cpx Mg# > 0.75; ranges from memory",
+            },
+            PyroxeneThermometer::Putirka2008Eq32d => Calibration {
+                see_all_c: 58.0,
+                see_high_mg_c: None,
+                temperature_c: (1000.0, 1700.0),
+                pressure_kbar: (0.0, 40.0),
+                basis: "anhydrous clinopyroxene-saturated experiments (±87 °C for hydrous ones); ranges from memory",
+            },
+        }
+    }
+}
+
+/// A thermometer's calibration, as [`PyroxeneThermometer::calibration`] gives it.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Calibration {
+    /// Standard error of estimate over all the calibration data, °C.
+    pub see_all_c: f64,
+    /// Standard error for clinopyroxene with Mg# ≥ 0.75, °C, where published.
+    pub see_high_mg_c: Option<f64>,
+    /// Approximate temperature range of the experiments, °C.
+    pub temperature_c: (f64, f64),
+    /// Approximate pressure range of the experiments, kbar.
+    pub pressure_kbar: (f64, f64),
+    /// What the calibration rests on, and how sure the ranges are.
+    pub basis: &'static str,
 }
 
 /// A pyroxene temperature with its standard error and warnings.
@@ -363,6 +428,15 @@ pub fn pyroxene_temperature(
             ));
         }
     }
+    let cal = thermometer.calibration();
+    let (t_lo, t_hi) = cal.temperature_c;
+    let (p_lo, p_hi) = cal.pressure_kbar;
+    if !(t_lo..=t_hi).contains(&temperature_c) || !(p_lo..=p_hi).contains(&p) {
+        warnings.push(format!(
+            "{temperature_c:.0} C at {p} kbar is outside the approximate calibration of {id} ({t_lo:.0}-{t_hi:.0} C, {p_lo:.0}-{p_hi:.0} kbar; {})",
+            cal.basis
+        ));
+    }
     match thermometer {
         PyroxeneThermometer::Putirka2008Eq36 | PyroxeneThermometer::Putirka2008Eq37
             if cpx.mg_number() < 0.75 =>
@@ -372,11 +446,6 @@ pub fn pyroxene_temperature(
                 cpx.mg_number()
             ));
         }
-        PyroxeneThermometer::BreyKohler1990
-            if !(900.0..=1400.0).contains(&temperature_c) || !(10.0..=60.0).contains(&p) =>
-        {
-            warnings.push("outside the Brey & Köhler (1990) experiments (about 900-1400 C, 10-60 kbar; from memory)".into());
-        }
         PyroxeneThermometer::Putirka2008Eq32d => {
             warnings.push("clinopyroxene alone: a temperature for anhydrous systems; it overestimates hydrous ones (Putirka 2008)".into());
         }
@@ -385,7 +454,7 @@ pub fn pyroxene_temperature(
     Ok(PyroxeneTemperature {
         thermometer,
         temperature_c,
-        see_c: thermometer.see_c(),
+        see_c: thermometer.see_for_mg_number(cpx.mg_number()),
         warnings,
     })
 }
