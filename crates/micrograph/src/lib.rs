@@ -54,6 +54,7 @@ pub mod histogram;
 pub mod load;
 pub mod morphometry;
 pub mod order;
+mod passes;
 pub mod roi;
 pub mod segment;
 pub mod synthetic;

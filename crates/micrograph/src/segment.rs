@@ -3,7 +3,6 @@
 //! blur-insensitive second estimate by linear unmixing.
 
 use image::GrayImage;
-use imageproc::region_labelling::{Connectivity, connected_components};
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
@@ -13,6 +12,7 @@ use crate::control::Control;
 use crate::error::{MicrographError, Result};
 use crate::histogram::Histogram;
 use crate::load::GrayPlane;
+use crate::passes;
 use crate::roi::Mask;
 use crate::threshold::{multi_otsu_levels, refine_levels_to_mode_midpoints, thin_phase_level};
 
@@ -315,6 +315,12 @@ fn mask_image(width: u32, height: u32, data: Vec<u8>) -> Result<GrayImage> {
 }
 
 /// Runs the pipeline on a greyscale plane within a region (see the crate docs for the steps).
+///
+/// The pixels are visited in a few fused, parallel passes over bands of rows: (1) the region's
+/// histogram; (2) the rows holding voids, for the rim pixels (a sparse list); (3) for two
+/// phases, the core pixels of a first classification, computed on the fly and never stored;
+/// (4) the final classification written into the class map together with the per-tile sums;
+/// (5) the small-feature clean-up, whose few changes then correct the tile sums.
 pub fn segment(
     plane: &GrayPlane,
     region: &Mask,
@@ -336,6 +342,7 @@ pub fn segment(
         });
     }
     let (w, h) = (plane.width, plane.height);
+    let (wu, hu) = (w as usize, h as usize);
     control.step(0.0)?;
     let region_hist = Histogram::of_region(plane, Some(&region.bits), s.bin_shift)?;
     let region_pixels = region_hist.total();
@@ -346,34 +353,44 @@ pub fn segment(
     }
     control.step(0.1)?;
 
-    // Voids and their rims.
+    // Voids (every region pixel at or below the void level) and their rims (a sorted list).
     let void_level = match s.voids {
         VoidDetection::Off => None,
         VoidDetection::Auto => auto_void_level(&region_hist, s.classes),
         VoidDetection::AtOrBelow(g) => Some(g),
     };
-    let mut class_map: Vec<u8> = vec![0; plane.len()];
-    class_map
-        .par_chunks_mut(1 << 16)
-        .zip(region.bits.par_chunks(1 << 16))
-        .for_each(|(c, b)| {
-            for (c, &b) in c.iter_mut().zip(b) {
-                if !b {
-                    *c = NOT_MEASURED;
-                }
-            }
-        });
-    let rim_values = match void_level {
-        Some(vl) => exclude_voids_with_rim(plane, region, vl, s.rim_px, &mut class_map),
+    let rim = match void_level {
+        Some(vl) => passes::void_rim_indices(&plane.data, &region.bits, wu, hu, vl, s.rim_px),
         None => Vec::new(),
     };
-    control.step(0.3)?;
+    let min_measured = void_level.map_or(0, |vl| u32::from(vl) + 1);
+    control.step(0.2)?;
     // Measured histogram = region histogram - voids (all bins at or below the void level)
     // - rim pixels; a pass over the pixels only when the void level splits a bin.
     let splits_bin =
         void_level.is_some_and(|vl| (usize::from(vl) + 1) % (1usize << s.bin_shift) != 0);
     let hist = if splits_bin {
-        Histogram::of_class_map(plane, &class_map, s.bin_shift)?
+        let lut = vec![0u8; (usize::from(u16::MAX) >> s.bin_shift) + 1];
+        let measured = passes::Classifier {
+            data: &plane.data,
+            region: &region.bits,
+            width: wu,
+            min_measured,
+            lut: &lut,
+            shift: s.bin_shift,
+            rim: &rim,
+        };
+        let counts = passes::core_counts(
+            &measured,
+            &plane.data,
+            wu,
+            hu,
+            1,
+            1,
+            plane.max_value,
+            s.bin_shift,
+        );
+        Histogram::from_counts(counts, s.bin_shift, plane.max_value)?
     } else {
         let mut counts = region_hist.counts().to_vec();
         if let Some(vl) = void_level {
@@ -381,8 +398,8 @@ pub fn segment(
                 .iter_mut()
                 .for_each(|c| *c = 0);
         }
-        for v in rim_values {
-            let b = region_hist.bin_of(v);
+        for &i in &rim {
+            let b = region_hist.bin_of(plane.data[i]);
             counts[b] = counts[b].saturating_sub(1);
         }
         Histogram::from_counts(counts, s.bin_shift, plane.max_value)?
@@ -395,7 +412,7 @@ pub fn segment(
     }
 
     // Levels.
-    let (levels, otsu_levels) = match &s.levels {
+    let (mut levels, otsu_levels) = match &s.levels {
         LevelChoice::Manual(l) => {
             if l.len() != s.classes - 1 || l.windows(2).any(|p| p[0] >= p[1]) {
                 return Err(MicrographError::InvalidParameter {
@@ -416,18 +433,36 @@ pub fn segment(
             (refine_levels_to_mode_midpoints(&hist, &o, smooth), Some(o))
         }
     };
-    control.step(0.4)?;
-
-    // Classification through a lookup table over bins.
-    let lut = class_lut(&hist, &levels);
-    classify(plane, &mut class_map, &lut, s.bin_shift);
-    let mut levels = levels;
+    control.step(0.3)?;
+    let base = passes::Classifier {
+        data: &plane.data,
+        region: &region.bits,
+        width: wu,
+        min_measured,
+        lut: &[],
+        shift: s.bin_shift,
+        rim: &rim,
+    };
     let mut warnings = Vec::new();
-    // Pure levels (two phases): cores of the first classification, before clean-up, and the
-    // blur-consistent level of the thinner phase; the default level choice then moves to the
-    // half-way point between them and the pixels are classified again.
+    // Pure levels (two phases): cores of the first classification (before clean-up, computed
+    // on the fly) and the blur-consistent level of the thinner phase; the default level choice
+    // then moves to the half-way point between them.
     let pure = if s.classes == 2 {
-        let p = pure_levels(plane, &class_map, &hist, &levels, s.core_distance_px)?;
+        let lut = passes::full_lut(&hist, &levels);
+        // 16-bit levels binned by 16 (0.02% of full scale) keep the tables in cache.
+        let shift = if plane.max_value > 255 { 4 } else { 0 };
+        let counts = passes::core_counts(
+            &passes::Classifier { lut: &lut, ..base },
+            &plane.data,
+            wu,
+            hu,
+            2,
+            s.core_distance_px,
+            plane.max_value,
+            shift,
+        );
+        let core_hists = core_counts_to_histograms(counts, 2, shift, plane.max_value)?;
+        let p = pure_levels(&core_hists, &hist, &levels);
         if let Some(p) = &p {
             if !p.thin_level_solved {
                 warnings.push(
@@ -439,11 +474,7 @@ pub fn segment(
                 let mid = ((p.levels[0] + p.levels[1]) / 2.0)
                     .floor()
                     .clamp(0.0, f64::from(plane.max_value)) as u16;
-                if mid != levels[0] {
-                    levels = vec![mid];
-                    let lut = class_lut(&hist, &levels);
-                    classify(plane, &mut class_map, &lut, s.bin_shift);
-                }
+                levels = vec![mid];
             }
         }
         p
@@ -451,8 +482,37 @@ pub fn segment(
         None
     };
     control.step(0.5)?;
+
+    // Final classification into the class map, with the tile sums in the same pass.
+    let tile_px = s
+        .tile_px
+        .unwrap_or_else(|| (w.min(h) / 8).clamp(32, 512))
+        .max(1);
+    let lut = passes::full_lut(&hist, &levels);
+    let mut class_map = vec![0u8; plane.len()];
+    let (mut tiles, mut class_gray) = passes::tiles_pass(
+        passes::TileMap::Fill(&mut class_map, &passes::Classifier { lut: &lut, ..base }),
+        &plane.data,
+        wu,
+        s.classes,
+        tile_px as usize,
+    );
+    control.step(0.6)?;
     if s.min_feature_px > 1 {
-        remove_small_features(&mut class_map, w, h, s.min_feature_px, s.classes)?;
+        let changes = small_feature_changes(&class_map, w, h, s.min_feature_px, s.classes);
+        // The changes are few: apply them and move their pixels between classes in the sums.
+        let (t, tx) = (tile_px as usize, wu.div_ceil(tile_px as usize));
+        for (i, new) in changes {
+            let old = class_map[i];
+            class_map[i] = new;
+            let (x, y) = (i % wu, i / wu);
+            let tile = &mut tiles[(y / t) * tx + x / t];
+            let v = f64::from(plane.data[i]);
+            tile.class_area[usize::from(old)] -= 1.0;
+            tile.class_area[usize::from(new)] += 1.0;
+            class_gray[usize::from(old)] -= v;
+            class_gray[usize::from(new)] += v;
+        }
     }
     if s.open_close_px > 0 {
         if s.classes != 2 {
@@ -463,15 +523,10 @@ pub fn segment(
             });
         }
         open_close_bright(&mut class_map, w, h, s.open_close_px)?;
+        (tiles, class_gray) = tile_and_class_stats(plane, &class_map, s.classes, tile_px);
     }
-    control.step(0.7)?;
+    control.step(0.8)?;
 
-    // Tiles: counts and grey sums.
-    let tile_px = s
-        .tile_px
-        .unwrap_or_else(|| (w.min(h) / 8).clamp(32, 512))
-        .max(1);
-    let (tiles, class_gray) = tile_and_class_stats(plane, &class_map, s.classes, tile_px);
     let mut class_px = vec![0f64; s.classes];
     for t in &tiles {
         for (a, b) in class_px.iter_mut().zip(&t.class_area) {
@@ -479,7 +534,6 @@ pub fn segment(
         }
     }
     let ci = fraction_ci95(&tiles, s.classes, s.bootstrap_resamples, s.seed);
-    control.step(0.8)?;
     let total = measured_pixels as f64;
     let phases: Vec<PhaseResult> = (0..s.classes)
         .map(|c| PhaseResult {
@@ -572,58 +626,20 @@ pub fn tile_stats(
 }
 
 /// Per-tile sums and, in the same pass, the grey sum of each class over the whole image.
+/// Classes at or above `classes` count as not measured.
 pub fn tile_and_class_stats(
     plane: &GrayPlane,
     class_map: &[u8],
     classes: usize,
     tile_px: u32,
 ) -> (Vec<TileStats>, Vec<f64>) {
-    let (w, h) = (plane.width as usize, plane.height as usize);
-    let t = (tile_px as usize).max(1);
-    let tx = w.div_ceil(t);
-    let ty = h.div_ceil(t);
-    // Rows in parallel; each row adds into its tile row's flat arrays.
-    let per_tile_row: Vec<(Vec<u64>, Vec<u64>, Vec<u64>)> = (0..ty)
-        .into_par_iter()
-        .map(|by| {
-            let mut counts = vec![0u64; tx * classes];
-            let mut sums = vec![0u64; tx];
-            let mut class_sums = vec![0u64; classes];
-            for y in by * t..((by + 1) * t).min(h) {
-                let row = &class_map[y * w..(y + 1) * w];
-                let vals = &plane.data[y * w..(y + 1) * w];
-                for (bx, (cs, vs)) in row.chunks(t).zip(vals.chunks(t)).enumerate() {
-                    let mut sum = 0u64;
-                    for (&c, &v) in cs.iter().zip(vs) {
-                        if c != NOT_MEASURED {
-                            let c = usize::from(c);
-                            counts[bx * classes + c] += 1;
-                            class_sums[c] += u64::from(v);
-                            sum += u64::from(v);
-                        }
-                    }
-                    sums[bx] += sum;
-                }
-            }
-            (counts, sums, class_sums)
-        })
-        .collect();
-    let mut class_gray = vec![0f64; classes];
-    let mut tiles = Vec::with_capacity(tx * ty);
-    for (counts, sums, class_sums) in per_tile_row {
-        for (g, cs) in class_gray.iter_mut().zip(&class_sums) {
-            *g += *cs as f64;
-        }
-        for bx in 0..tx {
-            let c = &counts[bx * classes..(bx + 1) * classes];
-            tiles.push(TileStats {
-                measured: c.iter().sum::<u64>() as f64,
-                class_area: c.iter().map(|&k| k as f64).collect(),
-                gray_sum: sums[bx] as f64,
-            });
-        }
-    }
-    (tiles, class_gray)
+    passes::tiles_pass(
+        passes::TileMap::Read(class_map),
+        &plane.data,
+        plane.width as usize,
+        classes,
+        tile_px as usize,
+    )
 }
 
 /// Opening then closing (imageproc `morphology::open` and `close`, chessboard norm, i.e. a
@@ -646,14 +662,16 @@ pub fn open_close_bright(class_map: &mut [u8], width: u32, height: u32, k: u8) -
 }
 
 /// Merges 8-connected features of one class smaller than `min_px` into the class most common
-/// along their border. Labelling by imageproc's `connected_components` (two-pass union-find,
-/// Rosenfeld & Pfaltz 1966, "Sequential operations in digital picture processing", J. ACM
-/// 13(4):471-494).
+/// along their border (4-neighbours of another measured class; the last such class on ties).
 ///
-/// For `min_px <= 9` (the usual noise clean-up) a bounded search is used instead: a pixel with
-/// at least `min_px - 1` same-class 8-neighbours is in a large feature; from any other pixel a
-/// flood fill stops as soon as it has found `min_px` pixels. Same result as the labelling,
-/// with no label image (4 bytes a pixel, 256 MiB at 8192 x 8192) and a fraction of the time.
+/// For `min_px <= 9` (the usual noise clean-up) a bounded search: a pixel with at least
+/// `min_px - 1` same-class 8-neighbours is in a large feature (counted a row at a time); from
+/// any other pixel a flood fill stops as soon as it has found `min_px` pixels. Larger sizes
+/// label features by runs (run-based two-pass labelling with union-find: Rosenfeld & Pfaltz
+/// 1966, "Sequential operations in digital picture processing", J. ACM 13(4):471-494; He, Chao
+/// & Suzuki 2008, IEEE Trans. Image Processing 17(5):749-756). Both give the same result as
+/// imageproc's `connected_components` (checked in the tests) with no per-pixel label image
+/// (4 bytes a pixel, 256 MiB at 8192 x 8192).
 pub fn remove_small_features(
     class_map: &mut [u8],
     width: u32,
@@ -661,206 +679,34 @@ pub fn remove_small_features(
     min_px: u32,
     classes: usize,
 ) -> Result<()> {
-    if min_px <= 9 {
-        remove_small_features_bounded(
-            class_map,
-            width as usize,
-            height as usize,
-            min_px as usize,
-            classes,
-        );
-        return Ok(());
+    if class_map.len() != width as usize * height as usize {
+        return Err(MicrographError::Mismatch(format!(
+            "class map has {} pixels, {width} x {height} expected",
+            class_map.len()
+        )));
     }
-    remove_small_features_labelled(class_map, width, height, min_px, classes)
-}
-
-fn remove_small_features_bounded(
-    class_map: &mut [u8],
-    w: usize,
-    h: usize,
-    min_px: usize,
-    classes: usize,
-) {
-    let src: &[u8] = class_map;
-    let neighbours8 = |i: usize| {
-        let (x, y) = ((i % w) as i64, (i / w) as i64);
-        [
-            (-1i64, -1i64),
-            (0, -1),
-            (1, -1),
-            (-1, 0),
-            (1, 0),
-            (-1, 1),
-            (0, 1),
-            (1, 1),
-        ]
-        .into_iter()
-        .filter_map(move |(dx, dy)| {
-            let (xx, yy) = (x + dx, y + dy);
-            (xx >= 0 && yy >= 0 && (xx as usize) < w && (yy as usize) < h)
-                .then(|| yy as usize * w + xx as usize)
-        })
-    };
-    let changes: Vec<(usize, u8)> = (0..h)
-        .into_par_iter()
-        .flat_map_iter(|y| {
-            let mut out = Vec::new();
-            let mut comp: Vec<usize> = Vec::with_capacity(min_px);
-            for i in y * w..(y + 1) * w {
-                let c = src[i];
-                if c == NOT_MEASURED {
-                    continue;
-                }
-                let x = i - y * w;
-                let same = if x > 0 && x + 1 < w && y > 0 && y + 1 < h {
-                    // Interior: direct indexing, stopping once enough neighbours agree (the
-                    // common case inside a phase: left, right and up already suffice).
-                    let (up, dn) = (i - w, i + w);
-                    let mut n = 0;
-                    for j in [i - 1, i + 1, up, dn, up - 1, up + 1, dn - 1, dn + 1] {
-                        n += usize::from(src[j] == c);
-                        if n + 1 >= min_px {
-                            break;
-                        }
-                    }
-                    n
-                } else {
-                    neighbours8(i).filter(|&j| src[j] == c).count()
-                };
-                if same + 1 >= min_px {
-                    continue;
-                }
-                comp.clear();
-                comp.push(i);
-                let mut k = 0;
-                while k < comp.len() && comp.len() < min_px {
-                    let p = comp[k];
-                    for j in neighbours8(p) {
-                        if src[j] == c && !comp.contains(&j) {
-                            comp.push(j);
-                            if comp.len() >= min_px {
-                                break;
-                            }
-                        }
-                    }
-                    k += 1;
-                }
-                if comp.len() >= min_px {
-                    continue;
-                }
-                let mut votes = [0u32; 16];
-                for &p in &comp {
-                    let (x, yy) = (p % w, p / w);
-                    let mut vote = |j: usize| {
-                        if src[j] != c && src[j] != NOT_MEASURED {
-                            votes[usize::from(src[j]).min(15)] += 1;
-                        }
-                    };
-                    if x > 0 {
-                        vote(p - 1);
-                    }
-                    if x + 1 < w {
-                        vote(p + 1);
-                    }
-                    if yy > 0 {
-                        vote(p - w);
-                    }
-                    if yy + 1 < h {
-                        vote(p + w);
-                    }
-                }
-                let (best, n) = votes[..classes.min(16)].iter().enumerate().fold(
-                    (0usize, 0u32),
-                    // Last maximum on ties, as `Iterator::max_by_key` in the labelled path.
-                    |acc, (k, &n)| if n > 0 && n >= acc.1 { (k, n) } else { acc },
-                );
-                if n > 0 {
-                    out.push((i, best as u8));
-                }
-            }
-            out
-        })
-        .collect();
-    for (i, c) in changes {
+    for (i, c) in small_feature_changes(class_map, width, height, min_px, classes) {
         class_map[i] = c;
     }
+    Ok(())
 }
 
-fn remove_small_features_labelled(
-    class_map: &mut [u8],
+/// The changes of [`remove_small_features`] as `(index, new class)`, without applying them.
+fn small_feature_changes(
+    class_map: &[u8],
     width: u32,
     height: u32,
     min_px: u32,
     classes: usize,
-) -> Result<()> {
-    let img = mask_image(width, height, class_map.to_vec())?;
-    let labels =
-        connected_components(&img, Connectivity::Eight, image::Luma([NOT_MEASURED])).into_raw();
-    drop(img);
-    let max_label = labels.par_iter().copied().max().unwrap_or(0) as usize;
-    let mut sizes = vec![0u32; max_label + 1];
-    for &l in &labels {
-        sizes[l as usize] = sizes[l as usize].saturating_add(1);
-    }
-    let mut small_index = vec![u32::MAX; max_label + 1];
-    let mut n_small = 0u32;
-    for (l, &sz) in sizes.iter().enumerate().skip(1) {
-        if sz < min_px {
-            small_index[l] = n_small;
-            n_small += 1;
-        }
-    }
-    if n_small == 0 {
-        return Ok(());
-    }
-    let mut votes = vec![vec![0u32; classes]; n_small as usize];
+) -> Vec<(usize, u8)> {
     let (w, h) = (width as usize, height as usize);
-    for y in 0..h {
-        for x in 0..w {
-            let i = y * w + x;
-            let si = small_index[labels[i] as usize];
-            if labels[i] == 0 || si == u32::MAX {
-                continue;
-            }
-            let mut vote = |j: usize| {
-                if labels[j] != labels[i] && class_map[j] != NOT_MEASURED {
-                    votes[si as usize][usize::from(class_map[j])] += 1;
-                }
-            };
-            if x > 0 {
-                vote(i - 1);
-            }
-            if x + 1 < w {
-                vote(i + 1);
-            }
-            if y > 0 {
-                vote(i - w);
-            }
-            if y + 1 < h {
-                vote(i + w);
-            }
-        }
+    if min_px <= 1 {
+        Vec::new()
+    } else if min_px <= 9 {
+        passes::small_feature_changes_bounded(class_map, w, h, min_px as usize, classes)
+    } else {
+        passes::small_feature_changes_runs(class_map, w, h, min_px, classes)
     }
-    let new_class: Vec<Option<u8>> = votes
-        .iter()
-        .map(|v| {
-            let (best, &n) = v.iter().enumerate().max_by_key(|&(_, n)| *n)?;
-            (n > 0).then_some(best as u8)
-        })
-        .collect();
-    class_map
-        .par_iter_mut()
-        .zip(labels.par_iter())
-        .for_each(|(c, &l)| {
-            let si = small_index[l as usize];
-            if l != 0
-                && si != u32::MAX
-                && let Some(nc) = new_class[si as usize]
-            {
-                *c = nc;
-            }
-        });
-    Ok(())
 }
 
 /// Histograms of the core pixels of classes `0..classes`: pixels of class `c` whose chessboard
@@ -869,11 +715,11 @@ fn remove_small_features_labelled(
 /// Chessboard distance never exceeds the Euclidean one, so cores are at least `d` px from any
 /// edge in the Euclidean sense too.
 ///
-/// Own separable window test (a row pass, then a column pass accumulating the histograms)
-/// instead of imageproc's `distance_transform(.., Norm::LInf)` per class: the same set (the
-/// chessboard distance transform of Rosenfeld & Pfaltz 1966 thresholded at `d`), measured
-/// 1.4 s -> 0.2 s for both classes at 8192 x 8192 on 2 cores, with one byte per pixel of
-/// scratch instead of three.
+/// Own separable window test (a row pass, then a column test over the rows of a band, both as
+/// shifted byte compares) instead of imageproc's `distance_transform(.., Norm::LInf)` per
+/// class: the same set (the chessboard distance transform of Rosenfeld & Pfaltz 1966
+/// thresholded at `d`, checked in the tests) with a few rows of scratch per band instead of an
+/// image per class.
 pub fn core_histograms(
     plane: &GrayPlane,
     class_map: &[u8],
@@ -881,90 +727,42 @@ pub fn core_histograms(
     d: u8,
     bin_shift: u32,
 ) -> Result<Vec<Histogram>> {
+    if class_map.len() != plane.len() {
+        return Err(MicrographError::Mismatch(format!(
+            "class map has {} pixels, image {}",
+            class_map.len(),
+            plane.len()
+        )));
+    }
     let (w, h) = (plane.width as usize, plane.height as usize);
-    let r = usize::from(d.max(1) - 1);
-    // Row pass: the class when the whole horizontal window has it, else NOT_MEASURED; by runs,
-    // so each pixel is looked at once.
-    let mut rowok = vec![NOT_MEASURED; w * h];
-    rowok
-        .par_chunks_mut(w)
-        .zip(class_map.par_chunks(w))
-        .with_min_len(64)
-        .for_each(|(out, row)| {
-            let mut a = 0;
-            while a < w {
-                let c = row[a];
-                let mut b = a + 1;
-                while b < w && row[b] == c {
-                    b += 1;
-                }
-                if c != NOT_MEASURED && usize::from(c) < classes {
-                    // x needs max(0, x - r) >= a and min(w, x + r + 1) <= b.
-                    let lo = if a == 0 { 0 } else { a + r };
-                    let hi = if b == w { w } else { b.saturating_sub(r) };
-                    for o in out.iter_mut().take(hi).skip(lo) {
-                        *o = c;
-                    }
-                }
-                a = b;
-            }
-        });
-    // Column pass over strips of columns: the length of the vertical run of equal `rowok`
-    // values ending at each row tells whether a pixel's vertical window is all one class.
     let bin_shift = bin_shift.min(15);
-    let nbins = (usize::from(plane.max_value) >> bin_shift) + 1;
-    let strip = 256usize;
-    let counts = (0..w.div_ceil(strip))
-        .into_par_iter()
-        .fold(
-            || vec![0u64; nbins * classes],
-            |mut acc, sx| {
-                let x0 = sx * strip;
-                let x1 = (x0 + strip).min(w);
-                let mut run = vec![0usize; x1 - x0];
-                for y in 0..h + r {
-                    if y < h {
-                        for x in x0..x1 {
-                            let v = rowok[y * w + x];
-                            run[x - x0] = if v == NOT_MEASURED {
-                                0
-                            } else if y > 0 && rowok[(y - 1) * w + x] == v {
-                                run[x - x0] + 1
-                            } else {
-                                1
-                            };
-                        }
-                    }
-                    if y < r {
-                        continue;
-                    }
-                    let yy = y - r;
-                    if yy >= h {
-                        break;
-                    }
-                    let yb = (yy + r).min(h - 1);
-                    let need = yb - yy.saturating_sub(r) + 1;
-                    for x in x0..x1 {
-                        if run[x - x0] >= need {
-                            let c = rowok[yy * w + x];
-                            acc[usize::from(c) * nbins
-                                + (usize::from(plane.data[yy * w + x]) >> bin_shift)] += 1;
-                        }
-                    }
-                }
-                acc
-            },
-        )
-        .reduce(
-            || vec![0u64; nbins * classes],
-            |mut a, b| {
-                a.iter_mut().zip(b).for_each(|(x, y)| *x += y);
-                a
-            },
-        );
+    let src = passes::MapSource {
+        map: class_map,
+        width: w,
+    };
+    let counts = passes::core_counts(
+        &src,
+        &plane.data,
+        w,
+        h,
+        classes,
+        d,
+        plane.max_value,
+        bin_shift,
+    );
+    core_counts_to_histograms(counts, classes, bin_shift, plane.max_value)
+}
+
+fn core_counts_to_histograms(
+    counts: Vec<u64>,
+    classes: usize,
+    bin_shift: u32,
+    max_value: u16,
+) -> Result<Vec<Histogram>> {
+    let nbins = counts.len() / classes.max(1);
     counts
-        .chunks(nbins)
-        .map(|c| Histogram::from_counts(c.to_vec(), bin_shift, plane.max_value))
+        .chunks(nbins.max(1))
+        .map(|c| Histogram::from_counts(c.to_vec(), bin_shift, max_value))
         .collect()
 }
 
@@ -985,83 +783,26 @@ pub fn exclude_voids_with_rim(
     class_map: &mut [u8],
 ) -> Vec<u16> {
     let (w, h) = (plane.width as usize, plane.height as usize);
-    let is_void = |i: usize| plane.data[i] <= void_level && region.bits[i];
-    // Per row: mark voids and collect boundary void pixels (a non-void 4-neighbour or the
-    // image border).
-    let boundary: Vec<usize> = class_map
-        .par_chunks_mut(w)
-        .enumerate()
-        .with_min_len(64)
-        .flat_map_iter(|(y, row)| {
-            let mut out = Vec::new();
-            let vals = &plane.data[y * w..(y + 1) * w];
-            for (x, c) in row.iter_mut().enumerate() {
-                if vals[x] > void_level {
-                    continue;
-                }
-                let i = y * w + x;
-                if !region.bits[i] {
-                    continue;
-                }
-                *c = NOT_MEASURED;
-                if x == 0
-                    || y == 0
-                    || x + 1 == w
-                    || y + 1 == h
-                    || !is_void(i - 1)
-                    || !is_void(i + 1)
-                    || !is_void(i - w)
-                    || !is_void(i + w)
-                {
-                    out.push(i);
-                }
-            }
-            out
-        })
-        .collect();
-    let r = i64::from(rim_px);
-    let disc: Vec<(i64, i64)> = (-r..=r)
-        .flat_map(|dy| (-r..=r).map(move |dx| (dx, dy)))
-        .filter(|&(dx, dy)| dx * dx + dy * dy <= r * r)
-        .collect();
-    let mut rim_values = Vec::new();
-    for &i in &boundary {
-        let (x, y) = ((i % w) as i64, (i / w) as i64);
-        for &(dx, dy) in &disc {
-            let (xx, yy) = (x + dx, y + dy);
-            if xx >= 0 && yy >= 0 && (xx as usize) < w && (yy as usize) < h {
-                let j = yy as usize * w + xx as usize;
-                if class_map[j] != NOT_MEASURED {
-                    class_map[j] = NOT_MEASURED;
-                    rim_values.push(plane.data[j]);
-                }
-            }
-        }
-    }
-    rim_values
-}
-
-/// Lookup table bin -> class for `levels`.
-fn class_lut(hist: &Histogram, levels: &[u16]) -> Vec<u8> {
-    let mut lut = vec![0u8; hist.len()];
-    for (c, (lo, hi)) in hist.class_bins(levels).into_iter().enumerate() {
-        lut[lo..hi].iter_mut().for_each(|x| *x = c as u8);
-    }
-    lut
-}
-
-/// Classifies every measured pixel of `class_map` through `lut`.
-fn classify(plane: &GrayPlane, class_map: &mut [u8], lut: &[u8], bin_shift: u32) {
     class_map
         .par_chunks_mut(1 << 16)
         .zip(plane.data.par_chunks(1 << 16))
-        .for_each(|(cs, vs)| {
-            for (c, &v) in cs.iter_mut().zip(vs) {
-                if *c != NOT_MEASURED {
-                    *c = lut[usize::from(v) >> bin_shift];
+        .zip(region.bits.par_chunks(1 << 16))
+        .for_each(|((cs, vs), rs)| {
+            for ((c, &v), &r) in cs.iter_mut().zip(vs).zip(rs) {
+                if r && v <= void_level {
+                    *c = NOT_MEASURED;
                 }
             }
         });
+    let rim = passes::void_rim_indices(&plane.data, &region.bits, w, h, void_level, rim_px);
+    let mut values = Vec::with_capacity(rim.len());
+    for i in rim {
+        if class_map[i] != NOT_MEASURED {
+            class_map[i] = NOT_MEASURED;
+            values.push(plane.data[i]);
+        }
+    }
+    values
 }
 
 /// Pure grey levels of the two phases (dark, bright).
@@ -1073,44 +814,34 @@ struct PureLevels {
     thin_level_solved: bool,
 }
 
-/// Pure levels of a two-phase image: the phase with the larger share of core pixels (cores:
-/// pixels at least `core_distance_px` from any other class, see [`core_histograms`]) is the
-/// wider one, and the median of its cores is its pure level (its cores are beyond the reach of
-/// the blur); the thinner phase's level is solved from the histogram with
-/// [`thin_phase_level`], falling back to its core median when that has no root.
-fn pure_levels(
-    plane: &GrayPlane,
-    class_map: &[u8],
-    hist: &Histogram,
-    levels: &[u16],
-    core_distance_px: u8,
-) -> Result<Option<PureLevels>> {
-    // 16-bit levels binned by 16 (0.02% of full scale) keep the tables in cache.
-    let shift = if plane.max_value > 255 { 4 } else { 0 };
-    let core_hists = core_histograms(plane, class_map, 2, core_distance_px, shift)?;
+/// Pure levels of a two-phase image from the core histograms of its two classes (cores: pixels
+/// at least `core_distance_px` from any other class, see [`core_histograms`]): the phase with
+/// the larger share of core pixels is the wider one, and the median of its cores is its pure
+/// level (its cores are beyond the reach of the blur); the thinner phase's level is solved from
+/// the histogram with [`thin_phase_level`], falling back to its core median when that has no
+/// root.
+fn pure_levels(core_hists: &[Histogram], hist: &Histogram, levels: &[u16]) -> Option<PureLevels> {
     let core_pixels = [core_hists[0].total(), core_hists[1].total()];
     let medians = [core_hists[0].quantile(0.5), core_hists[1].quantile(0.5)];
     let class_px: Vec<u64> = hist.class_stats(levels).iter().map(|c| c.pixels).collect();
     let share = |c: usize| core_pixels[c] as f64 / class_px[c].max(1) as f64;
     let reference = if share(0) >= share(1) { 0 } else { 1 };
     let thin = 1 - reference;
-    let Some(g_ref) = medians[reference] else {
-        return Ok(None);
-    };
+    let g_ref = medians[reference]?;
     let solved = thin_phase_level(hist, g_ref, thin == 0);
     let g_thin = match (solved, medians[thin]) {
         (Some(g), _) => g,
         (None, Some(g)) => g,
-        (None, None) => return Ok(None),
+        (None, None) => return None,
     };
     let mut l = [0.0; 2];
     l[reference] = g_ref;
     l[thin] = g_thin;
-    Ok(Some(PureLevels {
+    Some(PureLevels {
         levels: l,
         core_pixels,
         thin_level_solved: solved.is_some(),
-    }))
+    })
 }
 
 fn unmix(
@@ -1205,18 +936,75 @@ mod tests {
         }
     }
 
-    #[test]
-    fn bounded_clean_up_equals_labelled_clean_up() {
-        // Source: imageproc 0.27 `connected_components` (the labelled path) on the same noisy
-        // class map; the bounded search must change exactly the same pixels the same way.
+    /// The clean-up by imageproc's labelling (the reference for both of our paths): label
+    /// 8-connected features, count their pixels, and give each small one the class most common
+    /// among the 4-neighbours of its pixels that belong to another feature and are measured.
+    fn remove_small_features_imageproc(
+        class_map: &mut [u8],
+        width: u32,
+        height: u32,
+        min_px: u32,
+        classes: usize,
+    ) {
+        use imageproc::region_labelling::{Connectivity, connected_components};
+        let img = mask_image(width, height, class_map.to_vec()).unwrap();
+        let labels =
+            connected_components(&img, Connectivity::Eight, image::Luma([NOT_MEASURED])).into_raw();
+        let max_label = labels.iter().copied().max().unwrap_or(0) as usize;
+        let mut sizes = vec![0u32; max_label + 1];
+        for &l in &labels {
+            sizes[l as usize] += 1;
+        }
+        let mut votes = vec![vec![0u32; classes]; max_label + 1];
+        let (w, h) = (width as usize, height as usize);
+        for y in 0..h {
+            for x in 0..w {
+                let i = y * w + x;
+                let l = labels[i] as usize;
+                if l == 0 || sizes[l] >= min_px {
+                    continue;
+                }
+                let mut vote = |j: usize| {
+                    if labels[j] != labels[i] && class_map[j] != NOT_MEASURED {
+                        votes[l][usize::from(class_map[j])] += 1;
+                    }
+                };
+                if x > 0 {
+                    vote(i - 1);
+                }
+                if x + 1 < w {
+                    vote(i + 1);
+                }
+                if y > 0 {
+                    vote(i - w);
+                }
+                if y + 1 < h {
+                    vote(i + w);
+                }
+            }
+        }
+        for (c, &l) in class_map.iter_mut().zip(&labels) {
+            let l = l as usize;
+            if l == 0 || sizes[l] >= min_px {
+                continue;
+            }
+            if let Some((best, &n)) = votes[l].iter().enumerate().max_by_key(|&(_, n)| *n)
+                && n > 0
+            {
+                *c = best as u8;
+            }
+        }
+    }
+
+    fn noisy_class_map(w: u32, h: u32, noise: f64) -> Vec<u8> {
         let spec = SyntheticSpec {
-            width: 120,
-            height: 90,
-            noise_sigma: 0.09,
+            width: w,
+            height: h,
+            noise_sigma: noise,
             ..SyntheticSpec::default()
         };
-        let plane = spec.generate().plane(120, 90, false).unwrap();
-        let base: Vec<u8> = plane
+        let plane = spec.generate().plane(w, h, false).unwrap();
+        plane
             .data
             .iter()
             .enumerate()
@@ -1231,18 +1019,68 @@ mod tests {
                     0
                 }
             })
-            .collect();
-        for min_px in 2..=9u32 {
-            let mut a = base.clone();
-            let mut b = base.clone();
-            remove_small_features_bounded(&mut a, 120, 90, min_px as usize, 3);
-            remove_small_features_labelled(&mut b, 120, 90, min_px, 3).unwrap();
+            .collect()
+    }
+
+    #[test]
+    fn clean_up_equals_imageproc_labelled_clean_up() {
+        // Source: imageproc 0.27 `connected_components` (8-connected) on the same noisy class
+        // map; the bounded search (min_px <= 9) and the run-based labelling (larger sizes) must
+        // change exactly the same pixels the same way.
+        let base = noisy_class_map(120, 90, 0.09);
+        for min_px in (2..=12u32).chain([17, 40, 300]) {
+            let mut ours = base.clone();
+            let mut theirs = base.clone();
+            remove_small_features(&mut ours, 120, 90, min_px, 3).unwrap();
+            remove_small_features_imageproc(&mut theirs, 120, 90, min_px, 3);
             assert!(
-                a.iter().zip(&base).any(|(x, y)| x != y),
+                theirs.iter().zip(&base).any(|(x, y)| x != y),
                 "nothing to clean at min_px {min_px}"
             );
-            let differ = a.iter().zip(&b).filter(|(x, y)| x != y).count();
+            let differ = ours.iter().zip(&theirs).filter(|(x, y)| x != y).count();
             assert_eq!(differ, 0, "min_px {min_px}: {differ} pixels differ");
+        }
+        // The run-based path on the small sizes too (it is exact for any size).
+        for min_px in 2..=9u32 {
+            let mut theirs = base.clone();
+            remove_small_features_imageproc(&mut theirs, 120, 90, min_px, 3);
+            let mut ours = base.clone();
+            for (i, c) in passes::small_feature_changes_runs(&base, 120, 90, min_px, 3) {
+                ours[i] = c;
+            }
+            assert_eq!(ours, theirs, "runs, min_px {min_px}");
+        }
+    }
+
+    #[test]
+    fn fused_tile_sums_equal_a_recount_of_the_final_map() {
+        // Source: definition; the tile sums built during classification and corrected by the
+        // clean-up's changes must equal a direct recount over the returned class map.
+        let spec = SyntheticSpec {
+            width: 150,
+            height: 110,
+            noise_sigma: 0.06,
+            ..SyntheticSpec::default()
+        };
+        let plane = spec.generate().plane(150, 110, true).unwrap();
+        for (classes, min_px) in [(2usize, 4u32), (3, 6), (2, 25)] {
+            let settings = SegmentSettings {
+                classes,
+                min_feature_px: min_px,
+                tile_px: Some(32),
+                ..SegmentSettings::default()
+            };
+            let seg = segment(&plane, &Mask::full(150, 110), &settings, &Control::none()).unwrap();
+            let (tiles, gray) = tile_and_class_stats(&plane, &seg.class_map, classes, 32);
+            assert_eq!(seg.tiles, tiles, "{classes} classes, min_px {min_px}");
+            for (p, g) in seg.phases.iter().zip(&gray) {
+                let mean = g / p.pixels as f64;
+                assert!(
+                    (p.mean_gray - mean).abs() < 1e-9,
+                    "{} vs {mean}",
+                    p.mean_gray
+                );
+            }
         }
     }
 
@@ -1287,6 +1125,70 @@ mod tests {
                     &counts[..],
                     "class {c}, d {d}"
                 );
+            }
+        }
+    }
+
+    #[test]
+    fn cores_of_the_on_the_fly_classification_equal_those_of_a_stored_map() {
+        // Source: definition; classifying on the fly (voids, rims, region and levels applied
+        // per band) must give the same core histograms as classifying into a map first and
+        // running the (imageproc-checked) core test on it.
+        let spec = SyntheticSpec {
+            width: 97,
+            height: 83,
+            ..SyntheticSpec::default()
+        };
+        let plane = spec.generate().plane(97, 83, true).unwrap();
+        let roi = crate::roi::Roi {
+            include: vec![crate::roi::Polygon(vec![
+                [3.0, 5.0],
+                [90.0, 2.0],
+                [94.0, 80.0],
+                [6.0, 70.0],
+            ])],
+            exclude: vec![],
+        };
+        let region = roi.rasterise(97, 83).unwrap();
+        let (vl, level) = (8000u16, 38000u16);
+        let hist = Histogram::of_region(&plane, Some(&region.bits), 0).unwrap();
+        let lut = passes::full_lut(&hist, &[level]);
+        let mut map: Vec<u8> = plane
+            .data
+            .iter()
+            .zip(&region.bits)
+            .map(|(&v, &r)| if r { u8::from(v > level) } else { NOT_MEASURED })
+            .collect();
+        let _ = exclude_voids_with_rim(&plane, &region, vl, 2, &mut map);
+        let rim = passes::void_rim_indices(&plane.data, &region.bits, 97, 83, vl, 2);
+        let fly = passes::Classifier {
+            data: &plane.data,
+            region: &region.bits,
+            width: 97,
+            min_measured: u32::from(vl) + 1,
+            lut: &lut,
+            shift: 0,
+            rim: &rim,
+        };
+        let mut filled = vec![0u8; map.len()];
+        passes::ClassSource::fill_rows(&fly, 0, 83, &mut filled);
+        assert_eq!(filled, map, "same classes");
+        for d in [1u8, 3, 4] {
+            let stored = core_histograms(&plane, &map, 2, d, 4).unwrap();
+            // Bands of 1, 2, 5 and 7 rows check the seams between bands (halo rows).
+            for band in [1usize, 2, 5, 7, 83] {
+                let counts = passes::core_counts_in_bands(
+                    &fly,
+                    &plane.data,
+                    (97, 83),
+                    2,
+                    d,
+                    u16::MAX,
+                    4,
+                    band,
+                );
+                let ours = core_counts_to_histograms(counts, 2, 4, u16::MAX).unwrap();
+                assert_eq!(ours, stored, "d {d}, band {band}");
             }
         }
     }

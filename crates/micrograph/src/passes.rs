@@ -1,0 +1,646 @@
+//! Row-band kernels of the segmentation pipeline.
+//!
+//! A large image is never copied whole: each pass walks bands of rows in parallel (rayon), works
+//! in a few rows of scratch per band, and writes at most the one-byte-per-pixel class map that is
+//! the pipeline's output. Classes are computed on the fly from the grey values (a lookup table
+//! over the bins), so the first classification (only needed for the core pixels of the pure
+//! levels) is never stored. The inner loops are written over whole rows of slices so the
+//! compiler can vectorise them (byte compares and adds, 16 or 32 pixels per instruction).
+
+use rayon::prelude::*;
+
+use crate::bootstrap::TileStats;
+use crate::histogram::Histogram;
+use crate::segment::NOT_MEASURED as NM;
+
+/// Rows per band: about 2^19 pixels, so a band and its scratch rows stay in the L2 cache.
+pub(crate) fn band_rows(w: usize, h: usize) -> usize {
+    ((1usize << 19) / w.max(1)).clamp(8, h.max(1))
+}
+
+/// Where the class of each pixel comes from.
+pub(crate) trait ClassSource: Sync {
+    /// Writes the classes of rows `y0..y1` (row-major) into `out` (`(y1 - y0) * width` bytes).
+    fn fill_rows(&self, y0: usize, y1: usize, out: &mut [u8]);
+}
+
+/// Classes read from a stored class map.
+pub(crate) struct MapSource<'a> {
+    pub map: &'a [u8],
+    pub width: usize,
+}
+
+impl ClassSource for MapSource<'_> {
+    fn fill_rows(&self, y0: usize, y1: usize, out: &mut [u8]) {
+        out.copy_from_slice(&self.map[y0 * self.width..y1 * self.width]);
+    }
+}
+
+/// Classes computed on the fly: `NOT_MEASURED` outside the region, at or below the void level
+/// and on the (sorted) rim pixels; otherwise the class of the grey value by a lookup table.
+pub(crate) struct Classifier<'a> {
+    pub data: &'a [u16],
+    pub region: &'a [bool],
+    pub width: usize,
+    /// Smallest measured grey value (void level + 1; 0 without voids).
+    pub min_measured: u32,
+    /// Class per `value >> shift`, for every u16 value (see [`full_lut`]).
+    pub lut: &'a [u8],
+    pub shift: u32,
+    /// Rim pixels (indices), sorted ascending.
+    pub rim: &'a [usize],
+}
+
+impl ClassSource for Classifier<'_> {
+    fn fill_rows(&self, y0: usize, y1: usize, out: &mut [u8]) {
+        let (a, b) = (y0 * self.width, y1 * self.width);
+        let (lut, shift, min) = (self.lut, self.shift, self.min_measured);
+        for ((o, &v), &r) in out.iter_mut().zip(&self.data[a..b]).zip(&self.region[a..b]) {
+            let c = lut[usize::from(v) >> shift];
+            *o = if r & (u32::from(v) >= min) { c } else { NM };
+        }
+        let lo = self.rim.partition_point(|&i| i < a);
+        let hi = self.rim.partition_point(|&i| i < b);
+        for &i in &self.rim[lo..hi] {
+            out[i - a] = NM;
+        }
+    }
+}
+
+/// Lookup table `value >> shift -> class` covering every u16 value (values above the
+/// histogram's range take the brightest class), for `levels` on `hist`.
+pub(crate) fn full_lut(hist: &Histogram, levels: &[u16]) -> Vec<u8> {
+    let shift = hist.bin_shift();
+    let mut lut = vec![levels.len() as u8; (usize::from(u16::MAX) >> shift) + 1];
+    for (c, (lo, hi)) in hist.class_bins(levels).into_iter().enumerate() {
+        lut[lo..hi].iter_mut().for_each(|x| *x = c as u8);
+    }
+    lut
+}
+
+/// `out[x] = row[x]` when every pixel of the horizontal window `x - r ..= x + r` (clipped at
+/// the row ends) has the same class as `x`, else `NOT_MEASURED`.
+fn window_row(row: &[u8], r: usize, out: &mut [u8]) {
+    out.copy_from_slice(row);
+    let w = row.len();
+    for k in 1..=r.min(w.saturating_sub(1)) {
+        // Left neighbour at distance k (exists for x >= k).
+        for ((o, &c), &l) in out[k..].iter_mut().zip(&row[k..]).zip(&row[..w - k]) {
+            *o = if l == c { *o } else { NM };
+        }
+        // Right neighbour at distance k (exists for x < w - k).
+        for ((o, &c), &rr) in out[..w - k].iter_mut().zip(&row[..w - k]).zip(&row[k..]) {
+            *o = if rr == c { *o } else { NM };
+        }
+    }
+}
+
+/// Core-pixel counts per class and grey bin: pixels whose `(2d-1) x (2d-1)` window (clipped at
+/// the image border) is all of their class (see [`crate::segment::core_histograms`]). Returns
+/// `classes * nbins` counts, class-major; `nbins = (max_value >> shift) + 1`.
+#[allow(clippy::too_many_arguments)]
+pub(crate) fn core_counts(
+    src: &dyn ClassSource,
+    data: &[u16],
+    w: usize,
+    h: usize,
+    classes: usize,
+    d: u8,
+    max_value: u16,
+    shift: u32,
+) -> Vec<u64> {
+    let band = band_rows(w, h);
+    core_counts_in_bands(src, data, (w, h), classes, d, max_value, shift, band)
+}
+
+/// [`core_counts`] with a given band height (tests use small bands to check the seams).
+#[allow(clippy::too_many_arguments)]
+pub(crate) fn core_counts_in_bands(
+    src: &dyn ClassSource,
+    data: &[u16],
+    (w, h): (usize, usize),
+    classes: usize,
+    d: u8,
+    max_value: u16,
+    shift: u32,
+    band: usize,
+) -> Vec<u64> {
+    let band = band.max(1);
+    let r = usize::from(d.max(1) - 1);
+    let nbins = (usize::from(max_value) >> shift) + 1;
+    let dump = classes.min(usize::from(NM)) as u8;
+    let table = (classes + 1) * nbins;
+    let mut counts = (0..h.div_ceil(band))
+        .into_par_iter()
+        .fold(
+            || (vec![0u64; table], Vec::new(), Vec::new(), vec![0u8; w]),
+            |(mut acc, mut cls, mut hok, mut row), b| {
+                let (y0, y1) = (b * band, ((b + 1) * band).min(h));
+                let (ya, yb) = (y0.saturating_sub(r), (y1 + r).min(h));
+                cls.resize((yb - ya) * w, 0);
+                hok.resize((yb - ya) * w, 0);
+                src.fill_rows(ya, yb, &mut cls);
+                for (c, o) in cls.chunks(w).zip(hok.chunks_mut(w)) {
+                    window_row(c, r, o);
+                }
+                for y in y0..y1 {
+                    let at = |yy: usize| &hok[(yy - ya) * w..(yy - ya + 1) * w];
+                    row.copy_from_slice(at(y));
+                    for yy in y.saturating_sub(r)..=(y + r).min(h - 1) {
+                        if yy != y {
+                            for (o, &p) in row.iter_mut().zip(at(yy)) {
+                                *o = if p == *o { *o } else { NM };
+                            }
+                        }
+                    }
+                    let vals = &data[y * w..(y + 1) * w];
+                    for (&c, &v) in row.iter().zip(vals) {
+                        let k = usize::from(c.min(dump));
+                        acc[k * nbins + (usize::from(v.min(max_value)) >> shift)] += 1;
+                    }
+                }
+                (acc, cls, hok, row)
+            },
+        )
+        .map(|t| t.0)
+        .reduce(
+            || vec![0u64; table],
+            |mut a, b| {
+                a.iter_mut().zip(b).for_each(|(x, y)| *x += y);
+                a
+            },
+        );
+    counts.truncate(classes * nbins);
+    counts
+}
+
+/// Per-class pixel counts and grey sums of one row segment, added into `counts` and `sums`.
+fn segment_stats(cls: &[u8], vals: &[u16], counts: &mut [u64], sums: &mut [u64]) {
+    // u32 lanes: 4096 values of at most 65535 cannot overflow.
+    for (cc, vv) in cls.chunks(4096).zip(vals.chunks(4096)) {
+        for (k, (n_out, s_out)) in counts.iter_mut().zip(sums.iter_mut()).enumerate() {
+            let k = k as u8;
+            let (mut n, mut s) = (0u32, 0u32);
+            for (&c, &v) in cc.iter().zip(vv) {
+                let m = u32::from(c == k);
+                n += m;
+                s += m * u32::from(v);
+            }
+            *n_out += u64::from(n);
+            *s_out += u64::from(s);
+        }
+    }
+}
+
+/// The class map a tile pass reads, or writes first from a class source.
+pub(crate) enum TileMap<'a> {
+    /// Read the map as it is.
+    Read(&'a [u8]),
+    /// Write each tile row's classes from the source, then read them.
+    Fill(&'a mut [u8], &'a dyn ClassSource),
+}
+
+/// Per-tile sums (measured pixels, pixels per class, grey sum) and the grey sum of each class
+/// over the image, one tile row per task. With [`TileMap::Fill`] the classification and the
+/// statistics are one pass. Classes at or above `classes` count as not measured.
+pub(crate) fn tiles_pass(
+    map: TileMap<'_>,
+    data: &[u16],
+    w: usize,
+    classes: usize,
+    tile_px: usize,
+) -> (Vec<TileStats>, Vec<f64>) {
+    let t = tile_px.max(1);
+    let tx = w.div_ceil(t);
+    let stats = |by: usize, chunk: &[u8]| {
+        let y0 = by * t;
+        let y1 = y0 + chunk.len() / w;
+        let mut counts = vec![0u64; tx * classes];
+        let mut sums = vec![0u64; tx * classes];
+        for (row, vals) in chunk.chunks(w).zip(data[y0 * w..y1 * w].chunks(w)) {
+            for (bx, (cs, vs)) in row.chunks(t).zip(vals.chunks(t)).enumerate() {
+                let r = bx * classes..(bx + 1) * classes;
+                segment_stats(cs, vs, &mut counts[r.clone()], &mut sums[r]);
+            }
+        }
+        (counts, sums)
+    };
+    let per_tile_row: Vec<(Vec<u64>, Vec<u64>)> = match map {
+        TileMap::Read(m) => m
+            .par_chunks(t * w)
+            .enumerate()
+            .map(|(by, chunk)| stats(by, chunk))
+            .collect(),
+        TileMap::Fill(m, src) => m
+            .par_chunks_mut(t * w)
+            .enumerate()
+            .map(|(by, chunk)| {
+                let y0 = by * t;
+                src.fill_rows(y0, y0 + chunk.len() / w, chunk);
+                stats(by, chunk)
+            })
+            .collect(),
+    };
+    let mut class_gray = vec![0f64; classes];
+    let mut tiles = Vec::with_capacity(tx * per_tile_row.len());
+    for (counts, sums) in per_tile_row {
+        for bx in 0..tx {
+            let c = &counts[bx * classes..(bx + 1) * classes];
+            let s = &sums[bx * classes..(bx + 1) * classes];
+            for (g, &v) in class_gray.iter_mut().zip(s) {
+                *g += v as f64;
+            }
+            tiles.push(TileStats {
+                measured: c.iter().sum::<u64>() as f64,
+                class_area: c.iter().map(|&k| k as f64).collect(),
+                gray_sum: s.iter().sum::<u64>() as f64,
+            });
+        }
+    }
+    (tiles, class_gray)
+}
+
+/// Grey values and indices of the rim: region pixels that are not voids (`value <= void_level`)
+/// and lie within `rim_px` (Euclidean, pixel centres) of a void pixel. Sorted by index.
+///
+/// Only rows holding a void are scanned pixel by pixel (a row minimum decides); discs are
+/// stamped around void pixels with a non-void 4-neighbour (or on the image border), which
+/// reaches every pixel within `rim_px` of any void pixel.
+pub(crate) fn void_rim_indices(
+    data: &[u16],
+    region: &[bool],
+    w: usize,
+    h: usize,
+    void_level: u16,
+    rim_px: u8,
+) -> Vec<usize> {
+    let is_void = |i: usize| data[i] <= void_level && region[i];
+    let r = i64::from(rim_px);
+    let disc: Vec<(i64, i64)> = (-r..=r)
+        .flat_map(|dy| (-r..=r).map(move |dx| (dx, dy)))
+        .filter(|&(dx, dy)| (dx, dy) != (0, 0) && dx * dx + dy * dy <= r * r)
+        .collect();
+    let mut rim: Vec<usize> = (0..h)
+        .into_par_iter()
+        .with_min_len(16)
+        .flat_map_iter(|y| {
+            let mut out = Vec::new();
+            let vals = &data[y * w..(y + 1) * w];
+            if vals.iter().fold(u16::MAX, |m, &v| m.min(v)) > void_level {
+                return out;
+            }
+            for (x, &v) in vals.iter().enumerate() {
+                let i = y * w + x;
+                if v > void_level || !region[i] {
+                    continue;
+                }
+                let boundary = x == 0
+                    || y == 0
+                    || x + 1 == w
+                    || y + 1 == h
+                    || !is_void(i - 1)
+                    || !is_void(i + 1)
+                    || !is_void(i - w)
+                    || !is_void(i + w);
+                if !boundary {
+                    continue;
+                }
+                for &(dx, dy) in &disc {
+                    let (xx, yy) = (x as i64 + dx, y as i64 + dy);
+                    if xx >= 0 && yy >= 0 && (xx as usize) < w && (yy as usize) < h {
+                        let j = yy as usize * w + xx as usize;
+                        if region[j] && data[j] > void_level {
+                            out.push(j);
+                        }
+                    }
+                }
+            }
+            out
+        })
+        .collect();
+    rim.par_sort_unstable();
+    rim.dedup();
+    rim
+}
+
+const NEIGHBOURS8: [(i64, i64); 8] = [
+    (-1, -1),
+    (0, -1),
+    (1, -1),
+    (-1, 0),
+    (1, 0),
+    (-1, 1),
+    (0, 1),
+    (1, 1),
+];
+
+/// The new class of pixel `i` when its 8-connected feature has fewer than `min_px` pixels
+/// (the class most common along the feature's 4-neighbour border, last on ties), else None.
+/// `comp` is scratch.
+fn small_feature_class(
+    src: &[u8],
+    w: usize,
+    h: usize,
+    i: usize,
+    min_px: usize,
+    classes: usize,
+    comp: &mut Vec<usize>,
+) -> Option<u8> {
+    let c = src[i];
+    let neighbours8 = |p: usize| {
+        let (x, y) = ((p % w) as i64, (p / w) as i64);
+        NEIGHBOURS8.into_iter().filter_map(move |(dx, dy)| {
+            let (xx, yy) = (x + dx, y + dy);
+            (xx >= 0 && yy >= 0 && (xx as usize) < w && (yy as usize) < h)
+                .then(|| yy as usize * w + xx as usize)
+        })
+    };
+    comp.clear();
+    comp.push(i);
+    let mut k = 0;
+    while k < comp.len() && comp.len() < min_px {
+        let p = comp[k];
+        for j in neighbours8(p) {
+            if src[j] == c && !comp.contains(&j) {
+                comp.push(j);
+                if comp.len() >= min_px {
+                    break;
+                }
+            }
+        }
+        k += 1;
+    }
+    if comp.len() >= min_px {
+        return None;
+    }
+    let mut votes = [0u32; 16];
+    for &p in comp.iter() {
+        let (x, y) = (p % w, p / w);
+        let mut vote = |j: usize| {
+            if src[j] != c && src[j] != NM {
+                votes[usize::from(src[j]).min(15)] += 1;
+            }
+        };
+        if x > 0 {
+            vote(p - 1);
+        }
+        if x + 1 < w {
+            vote(p + 1);
+        }
+        if y > 0 {
+            vote(p - w);
+        }
+        if y + 1 < h {
+            vote(p + w);
+        }
+    }
+    let (best, n) = votes[..classes.min(16)].iter().enumerate().fold(
+        (0usize, 0u32),
+        // Last maximum on ties, as `Iterator::max_by_key` in the labelled path.
+        |acc, (k, &n)| if n > 0 && n >= acc.1 { (k, n) } else { acc },
+    );
+    (n > 0).then_some(best as u8)
+}
+
+/// Changes `(index, new class)` that merge 8-connected features smaller than `min_px`
+/// (`2..=9`) into their surroundings, by a bounded search (see
+/// [`crate::segment::remove_small_features`]).
+///
+/// A pixel with at least `min_px - 1` same-class 8-neighbours is in a large feature; those
+/// counts are taken for a whole row at once (eight shifted byte compares, vectorised), and only
+/// the few pixels that fail the test are searched.
+pub(crate) fn small_feature_changes_bounded(
+    src: &[u8],
+    w: usize,
+    h: usize,
+    min_px: usize,
+    classes: usize,
+) -> Vec<(usize, u8)> {
+    let need = min_px.saturating_sub(1) as u8;
+    let interior = w >= 3 && h >= 3;
+    (0..h)
+        .into_par_iter()
+        .with_min_len(32)
+        .fold(
+            || (Vec::new(), vec![0u8; w], Vec::with_capacity(min_px)),
+            |(mut out, mut n, mut comp), y| {
+                let mut check = |x: usize, out: &mut Vec<(usize, u8)>| {
+                    let i = y * w + x;
+                    if src[i] == NM {
+                        return;
+                    }
+                    if let Some(c) = small_feature_class(src, w, h, i, min_px, classes, &mut comp) {
+                        out.push((i, c));
+                    }
+                };
+                if !interior || y == 0 || y + 1 == h {
+                    for x in 0..w {
+                        check(x, &mut out);
+                    }
+                    return (out, n, comp);
+                }
+                let up = &src[(y - 1) * w..y * w];
+                let mid = &src[y * w..(y + 1) * w];
+                let dn = &src[(y + 1) * w..(y + 2) * w];
+                let centre = &mid[1..w - 1];
+                let counts = &mut n[1..w - 1];
+                counts.fill(0);
+                for nb in [
+                    &up[..w - 2],
+                    &up[1..w - 1],
+                    &up[2..],
+                    &mid[..w - 2],
+                    &mid[2..],
+                    &dn[..w - 2],
+                    &dn[1..w - 1],
+                    &dn[2..],
+                ] {
+                    for ((o, &a), &b) in counts.iter_mut().zip(nb).zip(centre) {
+                        *o += u8::from(a == b);
+                    }
+                }
+                check(0, &mut out);
+                for (ci, chunk) in counts.chunks(64).enumerate() {
+                    if chunk.iter().fold(u8::MAX, |m, &v| m.min(v)) >= need {
+                        continue;
+                    }
+                    for (k, &cnt) in chunk.iter().enumerate() {
+                        if cnt < need {
+                            check(1 + ci * 64 + k, &mut out);
+                        }
+                    }
+                }
+                check(w - 1, &mut out);
+                (out, n, comp)
+            },
+        )
+        .map(|t| t.0)
+        .reduce(Vec::new, |mut a, mut b| {
+            a.append(&mut b);
+            a
+        })
+}
+
+/// Disjoint-set forest with path halving (Tarjan 1975, "Efficiency of a good but not linear
+/// set union algorithm", J. ACM 22(2):215-225).
+struct DisjointSets(Vec<u32>);
+
+impl DisjointSets {
+    fn find(&mut self, mut a: u32) -> u32 {
+        while self.0[a as usize] != a {
+            let p = self.0[self.0[a as usize] as usize];
+            self.0[a as usize] = p;
+            a = p;
+        }
+        a
+    }
+
+    fn union(&mut self, a: u32, b: u32) {
+        let (ra, rb) = (self.find(a), self.find(b));
+        if ra != rb {
+            // Smaller root index wins, so roots are stable in scan order.
+            let (lo, hi) = if ra < rb { (ra, rb) } else { (rb, ra) };
+            self.0[hi as usize] = lo;
+        }
+    }
+}
+
+/// One run of equal classes in a row: `[start, end)` in the row.
+#[derive(Clone, Copy)]
+struct Run {
+    start: u32,
+    end: u32,
+    class: u8,
+}
+
+/// Changes `(index, new class)` that merge 8-connected features smaller than `min_px` into the
+/// class most common along their 4-neighbour border (last on ties), for any `min_px`.
+///
+/// Labelling by runs: each row is cut into runs of equal class; runs of one class in adjacent
+/// rows whose spans overlap or touch diagonally are joined in a disjoint-set forest (the
+/// run-based two-pass labelling of Rosenfeld & Pfaltz 1966, with union-find as in He, Chao &
+/// Suzuki 2008, "A run-based two-scan labeling algorithm", IEEE Trans. Image Processing
+/// 17(5):749-756). Memory is per run, not per pixel.
+pub(crate) fn small_feature_changes_runs(
+    src: &[u8],
+    w: usize,
+    h: usize,
+    min_px: u32,
+    classes: usize,
+) -> Vec<(usize, u8)> {
+    // Runs of every row (rows in parallel), then row starts.
+    let row_runs: Vec<Vec<Run>> = src
+        .par_chunks(w)
+        .map(|row| {
+            let mut runs = Vec::new();
+            let mut a = 0;
+            while a < w {
+                let c = row[a];
+                let mut b = a + 1;
+                while b < w && row[b] == c {
+                    b += 1;
+                }
+                if c != NM {
+                    runs.push(Run {
+                        start: a as u32,
+                        end: b as u32,
+                        class: c,
+                    });
+                }
+                a = b;
+            }
+            runs
+        })
+        .collect();
+    let mut first = Vec::with_capacity(h + 1);
+    first.push(0usize);
+    for r in &row_runs {
+        first.push(first.last().copied().unwrap_or(0) + r.len());
+    }
+    let runs: Vec<Run> = row_runs.into_iter().flatten().collect();
+    let mut sets = DisjointSets((0..runs.len() as u32).collect());
+    for y in 1..h {
+        let (prev, cur) = (first[y - 1]..first[y], first[y]..first[y + 1]);
+        let mut p = prev.start;
+        for k in cur {
+            let r = runs[k];
+            // Runs above that touch [start - 1, end] (8-connectivity).
+            while p < prev.end && runs[p].end < r.start {
+                p += 1;
+            }
+            let mut q = p;
+            while q < prev.end && runs[q].start <= r.end {
+                if runs[q].class == r.class {
+                    sets.union(k as u32, q as u32);
+                }
+                q += 1;
+            }
+        }
+    }
+    let mut size = vec![0u64; runs.len()];
+    for (k, r) in runs.iter().enumerate() {
+        let root = sets.find(k as u32) as usize;
+        size[root] += u64::from(r.end - r.start);
+    }
+    // Votes of small features: 4-neighbours of another measured class.
+    let mut small_index = vec![u32::MAX; runs.len()];
+    let mut votes: Vec<[u32; 16]> = Vec::new();
+    let mut owners = Vec::new();
+    for (y, span) in first.windows(2).enumerate() {
+        for (k, &r) in runs.iter().enumerate().take(span[1]).skip(span[0]) {
+            let root = sets.find(k as u32) as usize;
+            if size[root] >= u64::from(min_px) {
+                continue;
+            }
+            if small_index[root] == u32::MAX {
+                small_index[root] = votes.len() as u32;
+                votes.push([0; 16]);
+            }
+            let si = small_index[root] as usize;
+            owners.push((y, k, si));
+            let v = &mut votes[si];
+            let mut vote = |j: usize| {
+                let c = src[j];
+                if c != r.class && c != NM {
+                    v[usize::from(c).min(15)] += 1;
+                }
+            };
+            let (a, b) = (r.start as usize, r.end as usize);
+            if a > 0 {
+                vote(y * w + a - 1);
+            }
+            if b < w {
+                vote(y * w + b);
+            }
+            for x in a..b {
+                if y > 0 {
+                    vote((y - 1) * w + x);
+                }
+                if y + 1 < h {
+                    vote((y + 1) * w + x);
+                }
+            }
+        }
+    }
+    let new_class: Vec<Option<u8>> = votes
+        .iter()
+        .map(|v| {
+            let (best, n) =
+                v[..classes.min(16)]
+                    .iter()
+                    .enumerate()
+                    .fold((0usize, 0u32), |acc, (c, &n)| {
+                        if n > 0 && n >= acc.1 { (c, n) } else { acc }
+                    });
+            (n > 0).then_some(best as u8)
+        })
+        .collect();
+    let mut out = Vec::new();
+    for (y, k, si) in owners {
+        if let Some(c) = new_class[si] {
+            let r = runs[k];
+            out.extend((r.start as usize..r.end as usize).map(|x| (y * w + x, c)));
+        }
+    }
+    out
+}
