@@ -6,6 +6,8 @@ use image::{DynamicImage, ImageDecoder, ImageError, ImageReader, Limits};
 
 use crate::error::{MicrographError, Result};
 
+mod tiff_direct;
+
 /// Default memory budget: 2 GiB. A setting: pass your own [`LoadOptions`].
 pub const DEFAULT_MEMORY_BUDGET_BYTES: u64 = 2 * 1024 * 1024 * 1024;
 
@@ -232,6 +234,10 @@ fn our_bytes_per_pixel(colour: image::ColorType) -> u64 {
 ///
 /// The memory budget of `options` is checked against the header before any pixel is decoded
 /// (the decoder's buffer plus our copy), and given to the decoder as its allocation limit.
+///
+/// Greyscale (8/16-bit) and palette TIFFs are read with the `tiff` crate straight into the
+/// pixel buffer, strips or rows of tiles in parallel; everything else
+/// through the `image` crate.
 pub fn load(path: &Path, options: &LoadOptions) -> Result<Micrograph> {
     let path_buf = path.to_path_buf();
     let io_err = |source| MicrographError::Io {
@@ -257,11 +263,14 @@ pub fn load(path: &Path, options: &LoadOptions) -> Result<Micrograph> {
         detail: "the first bytes match no image signature (the file extension is not trusted)"
             .to_string(),
     })?;
+    if format == image::ImageFormat::Tiff
+        && let Some(m) = tiff_direct::load(path, options)?
+    {
+        return Ok(m);
+    }
     let mut reader = ImageReader::open(path).map_err(io_err)?;
     reader.set_format(format);
-    let mut limits = Limits::default();
-    limits.max_alloc = Some(options.memory_budget_bytes);
-    reader.limits(limits);
+    reader.limits(limits_for(options));
     let decoder = reader
         .into_decoder()
         .map_err(|e| map_image_error(e, &path_buf, 0, 0, options))?;
@@ -289,6 +298,12 @@ pub fn load(path: &Path, options: &LoadOptions) -> Result<Micrograph> {
     let image = DynamicImage::from_decoder(decoder)
         .map_err(|e| map_image_error(e, &path_buf, width, height, options))?;
     from_dynamic(image, &path_buf)
+}
+
+fn limits_for(options: &LoadOptions) -> Limits {
+    let mut limits = Limits::default();
+    limits.max_alloc = Some(options.memory_budget_bytes);
+    limits
 }
 
 fn map_image_error(
