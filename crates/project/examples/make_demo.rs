@@ -83,6 +83,8 @@ fn micrograph(dir: &Path, label: &str, shot: &Shot, class_phases: [&str; 2]) -> 
         region: region(),
         segmentation: SegmentSettings::default(),
         class_phases: class_phases.iter().map(|s| s.to_string()).collect(),
+        hand_edits: Vec::new(),
+        point_count: None,
     }
 }
 
@@ -116,6 +118,8 @@ fn main() {
         ],
         micrographs,
         notes: String::new(),
+        excluded_spots: Vec::new(),
+        spot_edits: Vec::new(),
     };
     let pyroxene_grain = |id: &str, micrographs: Vec<MicrographSpec>| Grain {
         id: id.into(),
@@ -132,6 +136,8 @@ fn main() {
         ],
         micrographs,
         notes: String::new(),
+        excluded_spots: Vec::new(),
+        spot_edits: Vec::new(),
     };
     let mut project = Project::new("Tarn Moss (invented demo)");
     project.description =

@@ -8,6 +8,7 @@ use std::path::{Path, PathBuf};
 
 use micrograph::roi::Roi;
 use micrograph::segment::SegmentSettings;
+use mineral::{Analysis, Oxide};
 use reintegration::{CompositionSpread, MineralSystem, VolumeSettings};
 use serde::{Deserialize, Serialize};
 
@@ -128,6 +129,52 @@ pub struct Grain {
     /// Free text.
     #[serde(default)]
     pub notes: String,
+    /// Spots of this grain the user left out of the computation (spot ids, as in the `spot`
+    /// column of the analyses), whatever their quality flags.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub excluded_spots: Vec<String>,
+    /// Corrections of single values of this grain's spot analyses, applied over the values read
+    /// from the analyses files (the files themselves are never changed).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub spot_edits: Vec<SpotEdit>,
+}
+
+/// A corrected value of one oxide in one spot analysis.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SpotEdit {
+    /// Spot id, as in the `spot` column of the analyses.
+    pub spot: String,
+    /// The oxide.
+    pub oxide: Oxide,
+    /// The value used instead of the file's, wt%.
+    pub wt: f64,
+}
+
+impl Grain {
+    /// Whether the user left this spot out.
+    pub fn spot_excluded(&self, spot: &str) -> bool {
+        self.excluded_spots.iter().any(|s| s == spot)
+    }
+
+    /// The user's value of an oxide of a spot, if corrected.
+    pub fn spot_edit(&self, spot: &str, oxide: Oxide) -> Option<f64> {
+        self.spot_edits
+            .iter()
+            .find(|e| e.spot == spot && e.oxide == oxide)
+            .map(|e| e.wt)
+    }
+
+    /// A spot analysis with the user's corrections applied (a corrected value replaces the
+    /// file's value and any below-detection or not-determined mark on it).
+    pub fn edited_analysis(&self, analysis: &Analysis) -> Analysis {
+        let mut a = analysis.clone();
+        for e in self.spot_edits.iter().filter(|e| e.spot == a.id.spot) {
+            a.oxides_wt.insert(e.oxide, e.wt);
+            a.censored.remove(&e.oxide);
+        }
+        a
+    }
 }
 
 /// A phase of a grain.
@@ -160,6 +207,87 @@ pub struct MicrographSpec {
     pub segmentation: SegmentSettings,
     /// For each grey class, dark to bright, the label of the phase it is.
     pub class_phases: Vec<String>,
+    /// Corrections drawn by hand over the automatic classification, applied in order.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub hand_edits: Vec<HandEdit>,
+    /// A point count over the region, the classical estimate beside the image analysis.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub point_count: Option<PointCount>,
+}
+
+/// A shape drawn on a micrograph, in image pixel coordinates (origin top-left, y down).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(tag = "kind", rename_all = "snake_case", deny_unknown_fields)]
+pub enum EditShape {
+    /// A closed polygon; a pixel is inside when its centre is (the region-of-interest rule).
+    Polygon {
+        /// Vertices (the last joins the first).
+        vertices: Vec<[f64; 2]>,
+    },
+    /// A brush stroke: every pixel whose centre lies within `radius_px` of the polyline.
+    Stroke {
+        /// The path of the brush centre.
+        points: Vec<[f64; 2]>,
+        /// Brush radius, pixels.
+        radius_px: f64,
+    },
+}
+
+/// A hand correction of the classification: the measured pixels under a shape become a phase,
+/// or (with no phase) go back to what the automatic classification made them.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct HandEdit {
+    /// Where.
+    pub shape: EditShape,
+    /// The phase label the pixels become; `None` erases earlier edits under the shape.
+    pub phase: Option<String>,
+}
+
+/// Where the points of a point count lie.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(tag = "kind", rename_all = "snake_case", deny_unknown_fields)]
+pub enum PointGrid {
+    /// A square grid of this spacing, pixels.
+    Regular {
+        /// Distance between neighbouring points, pixels.
+        spacing_px: f64,
+    },
+    /// Points drawn uniformly at random over the region, reproducibly from the seed.
+    Random {
+        /// How many points.
+        points: usize,
+        /// Seed of the draw.
+        seed: u64,
+    },
+}
+
+/// The phase given to one point of a point count.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct PointMark {
+    /// Index of the point in the grid's order.
+    pub point: usize,
+    /// Its phase; `None` = not counted (a void, a crack, a boundary).
+    pub phase: Option<String>,
+}
+
+/// A point count: the grid and the points marked so far.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct PointCount {
+    /// The grid.
+    pub grid: PointGrid,
+    /// Marked points, by point index.
+    #[serde(default)]
+    pub marks: Vec<PointMark>,
+}
+
+impl PointCount {
+    /// The mark of a point, if it has one.
+    pub fn mark(&self, point: usize) -> Option<&PointMark> {
+        self.marks.iter().find(|m| m.point == point)
+    }
 }
 
 impl Project {

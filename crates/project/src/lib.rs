@@ -11,6 +11,7 @@
 
 mod document;
 pub mod figure;
+pub mod hand;
 mod io;
 pub mod output;
 pub mod px;
@@ -18,13 +19,14 @@ pub mod report;
 mod run;
 
 pub use document::{
-    AnalysisFile, FORMAT_VERSION, Grain, MicrographSpec, PhaseSpec, Project, Sample, Settings,
+    AnalysisFile, EditShape, FORMAT_VERSION, Grain, HandEdit, MicrographSpec, PhaseSpec,
+    PointCount, PointGrid, PointMark, Project, Sample, Settings, SpotEdit,
 };
 pub use io::{
     ProjectError, autosave_path, autosave_project, load_project, parse_project, pending_autosave,
     project_json, save_project, write_atomically,
 };
 pub use run::{
-    GrainFailure, GrainResult, MicrographResult, PairResult, PhaseResult, Quiet, RunProgress,
-    RunResult, run_project,
+    GrainFailure, GrainResult, HandEditSummary, MicrographResult, PairResult, PhaseResult, Quiet,
+    RunProgress, RunResult, run_one_grain, run_project,
 };

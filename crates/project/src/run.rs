@@ -24,6 +24,7 @@ use solvus::thermometry::{AdjustmentOutcome, adjust_pair, pair_temperatures};
 use solvus::units::{bar_from_kbar, celsius_from_kelvin};
 
 use crate::document::{Grain, MicrographSpec, Project, Sample};
+use crate::hand::{PointCountEstimate, apply_hand_edits, grid_points, point_count_estimate};
 
 /// What went wrong with one grain (the rest of the project still runs).
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -80,6 +81,21 @@ pub struct MicrographResult {
     pub morphometry: Option<micrograph::morphometry::Morphometry>,
     /// Warnings from the image analysis.
     pub warnings: Vec<String>,
+    /// What the hand edits changed, when there are any.
+    pub hand_edits: Option<HandEditSummary>,
+    /// The point count, when one was set up.
+    pub point_count: Option<PointCountEstimate>,
+}
+
+/// What a micrograph's hand edits changed.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct HandEditSummary {
+    /// Number of edits.
+    pub edits: usize,
+    /// Measured pixels under an edit.
+    pub edited_pixels: u64,
+    /// Of those, pixels whose phase differs from the automatic classification.
+    pub changed_pixels: u64,
 }
 
 /// A two-feldspar temperature of the lamella pair.
@@ -165,6 +181,44 @@ pub fn run_project(
     progress: &dyn RunProgress,
     control: &JobControl,
 ) -> Result<RunResult, String> {
+    let grains: Vec<(&Sample, &Grain)> = project
+        .samples
+        .iter()
+        .flat_map(|s| s.grains.iter().map(move |g| (s, g)))
+        .collect();
+    run_grains(project, project_file, &grains, progress, control)
+}
+
+/// Run one grain of a project (sample and grain by index): the analyses files are read and the
+/// grain computed as in [`run_project`]; the result lists that grain alone.
+///
+/// # Errors
+/// As [`run_project`], and when there is no such grain.
+pub fn run_one_grain(
+    project: &Project,
+    project_file: &Path,
+    sample: usize,
+    grain: usize,
+    control: &JobControl,
+) -> Result<RunResult, String> {
+    let s = project
+        .samples
+        .get(sample)
+        .ok_or_else(|| format!("there is no sample {}", sample + 1))?;
+    let g = s
+        .grains
+        .get(grain)
+        .ok_or_else(|| format!("sample '{}' has no grain {}", s.id, grain + 1))?;
+    run_grains(project, project_file, &[(s, g)], &Quiet, control)
+}
+
+fn run_grains(
+    project: &Project,
+    project_file: &Path,
+    grains: &[(&Sample, &Grain)],
+    progress: &dyn RunProgress,
+    control: &JobControl,
+) -> Result<RunResult, String> {
     let model = SolutionModel::builtin(&project.settings.feldspar_model)
         .map_err(|e| format!("settings.feldspar_model: {e}"))?;
     let mut tables: Vec<(MineralSystem, SpotTable)> = Vec::new();
@@ -173,11 +227,6 @@ pub fn run_project(
         let table = read_spot_file(&path).map_err(|e| e.to_string())?;
         tables.push((file.system, table));
     }
-    let grains: Vec<(&Sample, &Grain)> = project
-        .samples
-        .iter()
-        .flat_map(|s| s.grains.iter().map(move |g| (s, g)))
-        .collect();
     let mut out = RunResult {
         project: project.name.clone(),
         grains: Vec::new(),
@@ -230,12 +279,23 @@ fn phase_from_spots(
     let mut used = Vec::new();
     let mut excluded = Vec::new();
     let mut fractions = Vec::new();
-    let mut oxides: Vec<&BTreeMap<Oxide, f64>> = Vec::new();
+    let mut oxides: Vec<BTreeMap<Oxide, f64>> = Vec::new();
     for (system, table) in tables.iter().filter(|(s, _)| *s == grain.system) {
         for a in &table.analyses {
             if a.id.sample != sample.id || a.id.grain != grain.id || a.id.phase != label {
                 continue;
             }
+            if grain.spot_excluded(&a.id.spot) {
+                excluded.push((a.id.spot.clone(), "left out by hand".into()));
+                continue;
+            }
+            let edited;
+            let a = if grain.spot_edits.is_empty() {
+                a
+            } else {
+                edited = grain.edited_analysis(a);
+                &edited
+            };
             if project.settings.exclude_flagged_analyses
                 && let Some(w) = first_warning(*system, a)
             {
@@ -248,12 +308,12 @@ fn phase_from_spots(
             };
             used.push(a.id.spot.clone());
             fractions.push(x);
-            oxides.push(&a.oxides_wt);
+            oxides.push(a.oxides_wt.clone());
         }
     }
     if fractions.is_empty() {
         return Err(format!(
-            "phase '{label}': no usable spot analysis with sample '{}', grain '{}', phase '{label}' ({} left out for quality warnings)",
+            "phase '{label}': no usable spot analysis with sample '{}', grain '{}', phase '{label}' ({} left out for quality warnings or by hand)",
             sample.id,
             grain.id,
             excluded.len()
@@ -321,8 +381,30 @@ fn run_micrograph(
             settings.classes
         ));
     }
-    let seg = segment(&plane, &region, &settings, &Control::none())
+    let mut seg = segment(&plane, &region, &settings, &Control::none())
         .map_err(|e| format!("{place}: {e}"))?;
+    let hand_edits = apply_hand_edits(
+        &mut seg,
+        &plane,
+        &spec.hand_edits,
+        &spec.class_phases,
+        &settings,
+    )
+    .map_err(|e| format!("{place}: {e}"))?
+    .map(|o| HandEditSummary {
+        edits: spec.hand_edits.len(),
+        edited_pixels: o.edited_pixels,
+        changed_pixels: o.changed_pixels,
+    });
+    let point_count = match &spec.point_count {
+        Some(count) => {
+            let points = grid_points(&count.grid, &spec.region, plane.width, plane.height)
+                .map_err(|e| format!("{place}: point count: {e}"))?;
+            let labels: Vec<String> = grain.phases.iter().map(|p| p.label.clone()).collect();
+            Some(point_count_estimate(count, &labels, points.len()))
+        }
+        None => None,
+    };
     let n = grain.phases.len();
     let phase_index = |label: &str| grain.phases.iter().position(|p| p.label == label);
     let mut fractions = vec![0.0; n];
@@ -399,6 +481,8 @@ fn run_micrograph(
         unmixing_fractions: unmix,
         morphometry,
         warnings,
+        hand_edits,
+        point_count,
     })
 }
 
@@ -551,6 +635,12 @@ fn run_grain(
     for m in &micrographs {
         for w in &m.warnings {
             notes.push(format!("{}: {w}", m.label));
+        }
+        if let Some(h) = &m.hand_edits {
+            notes.push(format!(
+                "{}: {} hand edits cover {} measured px, {} of them changed from the automatic classification",
+                m.label, h.edits, h.edited_pixels, h.changed_pixels
+            ));
         }
     }
     let o = mc.outcomes;
