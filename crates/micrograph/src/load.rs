@@ -235,9 +235,10 @@ fn our_bytes_per_pixel(colour: image::ColorType) -> u64 {
 /// The memory budget of `options` is checked against the header before any pixel is decoded
 /// (the decoder's buffer plus our copy), and given to the decoder as its allocation limit.
 ///
-/// Greyscale (8/16-bit) and palette TIFFs are read with the `tiff` crate straight into the
-/// pixel buffer, strips or rows of tiles in parallel; everything else
-/// through the `image` crate.
+/// Greyscale (8/16-bit) TIFFs are read with the `tiff` crate straight into the pixel buffer,
+/// strips or rows of tiles in parallel; everything else through the `image` crate. Palette
+/// images are read from PNG and BMP; palette TIFFs are refused with a message (the TIFF
+/// decoder cannot read colour-mapped TIFFs).
 pub fn load(path: &Path, options: &LoadOptions) -> Result<Micrograph> {
     let path_buf = path.to_path_buf();
     let io_err = |source| MicrographError::Io {

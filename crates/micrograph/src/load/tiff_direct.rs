@@ -1,14 +1,13 @@
-//! Greyscale (8/16-bit) and palette TIFFs read with the `tiff` crate straight into our pixel
-//! buffer.
+//! Greyscale (8/16-bit) TIFFs read with the `tiff` crate straight into our pixel buffer, and
+//! the clear refusal of palette TIFFs.
 //!
 //! The `image` crate decodes a TIFF into a buffer of its own and then copies it into the
 //! caller's (two full copies of a 128 MiB 16-bit 8192 x 8192 image at once), one strip after
-//! the other, and refuses palette TIFFs. Here each strip (or row of tiles) is decoded by its
-//! own reader, in parallel, into its place in the one output buffer. Layout and tag meanings:
-//! TIFF 6.0 specification (Adobe 1992), §3 (greyscale: BitsPerSample, PhotometricInterpretation
-//! 1 = BlackIsZero), §5 (palette colour: ColorMap holds all red, then all green, then all blue
-//! values, 2^BitsPerSample each, 16-bit), §15 (tiles: TileWidth, TileLength; edge tiles are
-//! padded); samples of fewer than 8 bits are packed from the most significant bit (FillOrder 1).
+//! the other. Here each strip (or row of tiles) is decoded by its own reader, in parallel, into
+//! its place in the one output buffer. Layout and tag meanings: TIFF 6.0 specification (Adobe
+//! 1992), §3 (greyscale: BitsPerSample, PhotometricInterpretation 1 = BlackIsZero), §5
+//! (PhotometricInterpretation 3 = palette colour), §15 (tiles: TileWidth, TileLength; edge
+//! tiles are padded).
 
 use std::fs::File;
 use std::io::BufReader;
@@ -29,8 +28,6 @@ type Reader = Decoder<BufReader<File>>;
 enum Kind {
     Gray8,
     Gray16,
-    /// Palette indices of this many bits (1, 2, 4 or 8).
-    Palette(u8),
 }
 
 fn open(path: &Path, options: &LoadOptions) -> std::result::Result<Reader, TiffError> {
@@ -65,8 +62,9 @@ fn map_error(err: TiffError, path: &Path, options: &LoadOptions) -> MicrographEr
     }
 }
 
-/// Reads the TIFF at `path` when it is greyscale (8/16-bit unsigned, black is zero) or palette
-/// colour; `Ok(None)` for every other kind (the caller uses the `image` crate).
+/// Reads the TIFF at `path` when it is greyscale (8/16-bit unsigned, black is zero); refuses
+/// palette TIFFs with a message saying what to do; `Ok(None)` for every other kind (the caller
+/// uses the `image` crate).
 pub(super) fn load(path: &Path, options: &LoadOptions) -> Result<Option<Micrograph>> {
     let err = |e: TiffError| map_error(e, path, options);
     let mut dec = open(path, options).map_err(err)?;
@@ -87,26 +85,24 @@ pub(super) fn load(path: &Path, options: &LoadOptions) -> Result<Option<Microgra
     let photometric = dec
         .find_tag_unsigned::<u16>(Tag::PhotometricInterpretation)
         .map_err(err)?;
+    if photometric == Some(3) {
+        return Err(MicrographError::UnsupportedFormat {
+            path: path.to_path_buf(),
+            detail: "palette (colour-mapped) TIFF: the TIFF decoder (tiff crate 0.11) cannot \
+                     read colour-mapped images; save the micrograph as greyscale or RGB TIFF, \
+                     or as PNG (palette PNGs are read)"
+                .to_string(),
+        });
+    }
     let kind = match (dec.colortype().map_err(err)?, photometric) {
         (ColorType::Gray(8), Some(1)) => Kind::Gray8,
         (ColorType::Gray(16), Some(1)) => Kind::Gray16,
-        (ColorType::Palette(b @ (1 | 2 | 4 | 8)), _) => Kind::Palette(b),
-        (ColorType::Palette(b), _) => {
-            return Err(MicrographError::UnsupportedFormat {
-                path: path.to_path_buf(),
-                detail: format!(
-                    "palette TIFF with {b}-bit indices (1, 2, 4 or 8 bits are supported)"
-                ),
-            });
-        }
         _ => return Ok(None),
     };
     let pixels = u64::from(width) * u64::from(height);
     let bytes_per_pixel = match kind {
         Kind::Gray8 => 1,
         Kind::Gray16 => 2,
-        // Indices, then 16-bit RGB.
-        Kind::Palette(_) => 1 + 6,
     };
     let needed = pixels.saturating_mul(bytes_per_pixel);
     if needed > options.memory_budget_bytes || usize::try_from(needed).is_err() {
@@ -136,30 +132,6 @@ pub(super) fn load(path: &Path, options: &LoadOptions) -> Result<Option<Microgra
                 bytemuck::cast_slice_mut(&mut out),
             )?;
             Pixels::Gray16(out)
-        }
-        Kind::Palette(bits) => {
-            let map = dec.get_tag_u16_vec(Tag::ColorMap).map_err(err)?;
-            let n = 1usize << bits;
-            if map.len() != 3 * n {
-                return Err(MicrographError::Decode {
-                    path: path.to_path_buf(),
-                    detail: format!(
-                        "palette TIFF: the colour map has {} entries, 3 x {n} expected for {bits}-bit indices",
-                        map.len()
-                    ),
-                });
-            }
-            let mut index = vec![0u8; w * h];
-            read_chunks(path, options, &layout, bits, &mut index)?;
-            Pixels::Rgb16(
-                index
-                    .par_iter()
-                    .map(|&i| {
-                        let i = usize::from(i);
-                        [map[i], map[n + i], map[2 * n + i]]
-                    })
-                    .collect(),
-            )
         }
     };
     Micrograph::new(width, height, pixels).map(Some)
@@ -212,8 +184,8 @@ impl ChunkLayout {
     }
 }
 
-/// Decodes every chunk into `out` (one byte per pixel for `bits <= 8`, indices unpacked; two
-/// bytes per pixel for 16 bits), one row of chunks per task, each task with its own reader.
+/// Decodes every chunk into `out` (`bits` 8 or 16 per pixel), one row of chunks per task, each
+/// task with its own reader.
 fn read_chunks(
     path: &Path,
     options: &LoadOptions,
@@ -243,27 +215,17 @@ fn read_chunks(
                 for cx in 0..l.across {
                     let chunk = (cy * l.across + cx) as u32;
                     let dw = l.chunk_w.min(l.width - cx * l.chunk_w);
-                    if bits >= 8 && l.across == 1 {
+                    if l.across == 1 {
                         // A full-width strip: decoded in place.
                         dec.read_chunk_bytes(chunk, band).map_err(decode_err)?;
                         continue;
                     }
-                    let in_row = (dw * bits).div_ceil(8);
+                    let in_row = dw * out_bpp;
                     scratch.resize(in_row * dh, 0);
                     dec.read_chunk_bytes(chunk, scratch).map_err(decode_err)?;
                     for (r, src) in scratch.chunks(in_row).enumerate() {
                         let at = r * row_out + cx * l.chunk_w * out_bpp;
-                        let dst = &mut band[at..at + dw * out_bpp];
-                        if bits >= 8 {
-                            dst.copy_from_slice(&src[..dw * out_bpp]);
-                        } else {
-                            let per_byte = 8 / bits;
-                            let mask = (1u8 << bits) - 1;
-                            for (x, d) in dst.iter_mut().enumerate() {
-                                let shift = 8 - bits * (x % per_byte + 1);
-                                *d = (src[x / per_byte] >> shift) & mask;
-                            }
-                        }
+                        band[at..at + dw * out_bpp].copy_from_slice(&src[..dw * out_bpp]);
                     }
                 }
                 Ok(())
