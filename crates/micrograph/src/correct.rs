@@ -39,7 +39,7 @@ impl Flattening {
     }
 }
 
-fn terms(u: f64, v: f64, degree: u8) -> Vec<f64> {
+pub(crate) fn terms(u: f64, v: f64, degree: u8) -> Vec<f64> {
     if degree >= 2 {
         vec![1.0, u, v, u * u, u * v, v * v]
     } else {
@@ -48,7 +48,7 @@ fn terms(u: f64, v: f64, degree: u8) -> Vec<f64> {
 }
 
 /// Solves the square system `a x = b` by Gaussian elimination with partial pivoting.
-fn solve(mut a: Vec<Vec<f64>>, mut b: Vec<f64>) -> Option<Vec<f64>> {
+pub(crate) fn solve(mut a: Vec<Vec<f64>>, mut b: Vec<f64>) -> Option<Vec<f64>> {
     let n = b.len();
     for col in 0..n {
         let piv = (col..n).max_by(|&i, &j| a[i][col].abs().total_cmp(&a[j][col].abs()))?;

@@ -86,6 +86,30 @@ pub enum MicrographError {
         /// What was wrong.
         message: String,
     },
+    /// A colour-seeds file is not valid JSON of the expected shape.
+    #[error("{path}:{line}:{column}: colour seeds: {message}")]
+    SeedsSyntax {
+        /// The file (or `<memory>`).
+        path: PathBuf,
+        /// 1-based line.
+        line: usize,
+        /// 1-based column.
+        column: usize,
+        /// What was wrong.
+        message: String,
+    },
+    /// A set of colour seeds is unusable.
+    #[error("colour seeds: {list} {index} ({label}): {message}")]
+    InvalidSeeds {
+        /// `phases` or `voids`.
+        list: &'static str,
+        /// 0-based index in its list.
+        index: usize,
+        /// The set's label.
+        label: String,
+        /// What was wrong.
+        message: String,
+    },
     /// No pixel is left to measure (region empty, or everything excluded).
     #[error("no pixel left to measure: {reason}")]
     EmptyRegion {

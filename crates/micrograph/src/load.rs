@@ -198,6 +198,20 @@ impl Micrograph {
         }
     }
 
+    /// The pixel at `(x, y)` as an 8-bit sRGB triplet (as [`Self::rgb8`]); black outside.
+    pub fn rgb8_at(&self, x: u32, y: u32) -> [u8; 3] {
+        if x >= self.width || y >= self.height {
+            return [0; 3];
+        }
+        let i = y as usize * self.width as usize + x as usize;
+        match &self.pixels {
+            Pixels::Gray8(v) => [v[i]; 3],
+            Pixels::Gray16(v) => [(v[i] >> 8) as u8; 3],
+            Pixels::Rgb8(v) => v[i],
+            Pixels::Rgb16(v) => v[i].map(|c| (c >> 8) as u8),
+        }
+    }
+
     /// Colour pixels as 8-bit sRGB triplets (16-bit colour is scaled down; grey is repeated).
     pub fn rgb8(&self) -> Vec<[u8; 3]> {
         match &self.pixels {

@@ -125,15 +125,51 @@ pub(crate) fn core_counts_in_bands(
     shift: u32,
     band: usize,
 ) -> Vec<u64> {
-    let band = band.max(1);
-    let r = usize::from(d.max(1) - 1);
     let nbins = (usize::from(max_value) >> shift) + 1;
     let dump = classes.min(usize::from(NM)) as u8;
     let table = (classes + 1) * nbins;
-    let mut counts = (0..h.div_ceil(band))
+    let mut counts = fold_core_rows(
+        src,
+        (w, h),
+        d,
+        band,
+        || vec![0u64; table],
+        |acc, y, row| {
+            let vals = &data[y * w..(y + 1) * w];
+            for (&c, &v) in row.iter().zip(vals) {
+                let k = usize::from(c.min(dump));
+                acc[k * nbins + (usize::from(v.min(max_value)) >> shift)] += 1;
+            }
+        },
+        |mut a, b| {
+            a.iter_mut().zip(b).for_each(|(x, y)| *x += y);
+            a
+        },
+    );
+    counts.truncate(classes * nbins);
+    counts
+}
+
+/// Calls `visit(acc, y, core)` for every row `y`, where `core[x]` is the class of pixel
+/// `(x, y)` when its `(2d-1) x (2d-1)` window (clipped at the image border) is all of that
+/// class, else `NOT_MEASURED`; bands of `band` rows in parallel, each with its own accumulator
+/// from `init`, merged by `merge`.
+#[allow(clippy::too_many_arguments)]
+pub(crate) fn fold_core_rows<A: Send>(
+    src: &dyn ClassSource,
+    (w, h): (usize, usize),
+    d: u8,
+    band: usize,
+    init: impl Fn() -> A + Sync + Send,
+    visit: impl Fn(&mut A, usize, &[u8]) + Sync + Send,
+    merge: impl Fn(A, A) -> A + Sync + Send,
+) -> A {
+    let band = band.max(1);
+    let r = usize::from(d.max(1) - 1);
+    (0..h.div_ceil(band))
         .into_par_iter()
         .fold(
-            || (vec![0u64; table], Vec::new(), Vec::new(), vec![0u8; w]),
+            || (init(), Vec::new(), Vec::new(), vec![0u8; w]),
             |(mut acc, mut cls, mut hok, mut row), b| {
                 let (y0, y1) = (b * band, ((b + 1) * band).min(h));
                 let (ya, yb) = (y0.saturating_sub(r), (y1 + r).min(h));
@@ -153,25 +189,13 @@ pub(crate) fn core_counts_in_bands(
                             }
                         }
                     }
-                    let vals = &data[y * w..(y + 1) * w];
-                    for (&c, &v) in row.iter().zip(vals) {
-                        let k = usize::from(c.min(dump));
-                        acc[k * nbins + (usize::from(v.min(max_value)) >> shift)] += 1;
-                    }
+                    visit(&mut acc, y, &row);
                 }
                 (acc, cls, hok, row)
             },
         )
         .map(|t| t.0)
-        .reduce(
-            || vec![0u64; table],
-            |mut a, b| {
-                a.iter_mut().zip(b).for_each(|(x, y)| *x += y);
-                a
-            },
-        );
-    counts.truncate(classes * nbins);
-    counts
+        .reduce(&init, merge)
 }
 
 /// Per-class pixel counts and grey sums of one row segment, added into `counts` and `sums`.
@@ -260,12 +284,10 @@ pub(crate) fn tiles_pass(
     (tiles, class_gray)
 }
 
-/// Grey values and indices of the rim: region pixels that are not voids (`value <= void_level`)
-/// and lie within `rim_px` (Euclidean, pixel centres) of a void pixel. Sorted by index.
-///
-/// Only rows holding a void are scanned pixel by pixel (a row minimum decides); discs are
-/// stamped around void pixels with a non-void 4-neighbour (or on the image border), which
-/// reaches every pixel within `rim_px` of any void pixel.
+/// Indices of the rim: region pixels that are not voids (`value <= void_level`) and lie within
+/// `rim_px` (Euclidean, pixel centres) of a void pixel (a region pixel at or below the level).
+/// Sorted by index. Only rows holding a value at or below the level are scanned pixel by pixel
+/// (a row minimum decides).
 pub(crate) fn void_rim_indices(
     data: &[u16],
     region: &[bool],
@@ -274,7 +296,34 @@ pub(crate) fn void_rim_indices(
     void_level: u16,
     rim_px: u8,
 ) -> Vec<usize> {
-    let is_void = |i: usize| data[i] <= void_level && region[i];
+    rim_indices(
+        (w, h),
+        rim_px,
+        |y| {
+            data[y * w..(y + 1) * w]
+                .iter()
+                .fold(u16::MAX, |m, &v| m.min(v))
+                <= void_level
+        },
+        |i| data[i] <= void_level && region[i],
+        |j| region[j] && data[j] > void_level,
+    )
+}
+
+/// Indices (sorted) of the pixels within `rim_px` (Euclidean, pixel centres) of a void pixel
+/// that `may_be_rim` accepts (in the region and not a void themselves). `row_has_void(y)` may
+/// answer true for a row without voids (it only lets rows be skipped).
+///
+/// Discs are stamped around void pixels with a non-void 4-neighbour (or on the image border),
+/// which reaches every pixel within `rim_px` of any void pixel: the same set as a Euclidean
+/// dilation of the voids (checked against imageproc's `dilate(.., Norm::L2, ..)` in the tests).
+pub(crate) fn rim_indices(
+    (w, h): (usize, usize),
+    rim_px: u8,
+    row_has_void: impl Fn(usize) -> bool + Sync,
+    is_void: impl Fn(usize) -> bool + Sync,
+    may_be_rim: impl Fn(usize) -> bool + Sync,
+) -> Vec<usize> {
     let r = i64::from(rim_px);
     let disc: Vec<(i64, i64)> = (-r..=r)
         .flat_map(|dy| (-r..=r).map(move |dx| (dx, dy)))
@@ -285,13 +334,12 @@ pub(crate) fn void_rim_indices(
         .with_min_len(16)
         .flat_map_iter(|y| {
             let mut out = Vec::new();
-            let vals = &data[y * w..(y + 1) * w];
-            if vals.iter().fold(u16::MAX, |m, &v| m.min(v)) > void_level {
+            if !row_has_void(y) {
                 return out;
             }
-            for (x, &v) in vals.iter().enumerate() {
+            for x in 0..w {
                 let i = y * w + x;
-                if v > void_level || !region[i] {
+                if !is_void(i) {
                     continue;
                 }
                 let boundary = x == 0
@@ -309,7 +357,7 @@ pub(crate) fn void_rim_indices(
                     let (xx, yy) = (x as i64 + dx, y as i64 + dy);
                     if xx >= 0 && yy >= 0 && (xx as usize) < w && (yy as usize) < h {
                         let j = yy as usize * w + xx as usize;
-                        if region[j] && data[j] > void_level {
+                        if may_be_rim(j) {
                             out.push(j);
                         }
                     }

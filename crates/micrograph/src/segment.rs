@@ -193,8 +193,15 @@ pub struct Segmentation {
     pub phases: Vec<PhaseResult>,
     /// Threshold sensitivity.
     pub sensitivity: Sensitivity,
-    /// Linear-unmixing estimate (two phases only).
+    /// Linear-unmixing estimate of a greyscale image (two phases only).
     pub unmixing: Option<Unmixing>,
+    /// Why there is no unmixing estimate when none could be defined (e.g. three or more phases
+    /// in a greyscale image).
+    #[serde(default)]
+    pub unmixing_note: Option<String>,
+    /// Linear-unmixing estimate of a colour image (2 to 4 phases).
+    #[serde(default)]
+    pub colour_unmixing: Option<crate::colour::ColourUnmixing>,
     /// Bootstrap tile side.
     pub tile_px: u32,
     /// Per-tile sums (for combining micrographs).
@@ -563,6 +570,17 @@ pub fn segment(
                 .to_string(),
         );
     }
+    let unmixing_note = (s.classes > 2).then(|| {
+        format!(
+            "linear unmixing is not defined for {} phases in a greyscale image: the mean grey and \
+             the sum of the fractions give two equations, enough for two phases only (a stained \
+             colour image gives four, enough for up to four phases)",
+            s.classes
+        )
+    });
+    if let Some(note) = &unmixing_note {
+        warnings.push(note.clone());
+    }
     let unmixing = if s.classes == 2 {
         let u = pure.and_then(|p| unmix(&p, &hist, &tiles, s));
         if let Some(u) = &u {
@@ -606,6 +624,8 @@ pub fn segment(
         phases,
         sensitivity: sens,
         unmixing,
+        unmixing_note,
+        colour_unmixing: None,
         tile_px,
         tiles,
         pixel_size_um: s.pixel_size.map(|p| p.pixel_size_um()),

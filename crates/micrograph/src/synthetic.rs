@@ -232,42 +232,203 @@ impl Synthetic {
     }
 
     /// A "stained" colour version: the same construction painted with three sRGB colours
-    /// (host, lamella, void), mixed by coverage, blurred, with noise per channel.
+    /// (host, lamella, void); see [`stained_multi`] for how it is rendered. The returned
+    /// [`Synthetic`] is the greyscale construction (its coverages are the truth).
     pub fn stained(
         spec: &SyntheticSpec,
         colours: [[u8; 3]; 3],
         noise_sigma: f64,
     ) -> Result<(Micrograph, Synthetic)> {
         let grey = spec.generate();
-        let (w, h) = (spec.width as usize, spec.height as usize);
-        let mut rng = SplitMix64::new(spec.seed ^ 0xC0FFEE);
-        let mut chans = Vec::new();
-        let [host_c, lam_c, void_c] = colours;
-        for ((host, lam), void) in host_c.into_iter().zip(lam_c).zip(void_c) {
-            let ideal: Vec<f32> = grey
-                .lamella_coverage
-                .iter()
-                .zip(&grey.void_coverage)
-                .map(|(&l, &v)| {
-                    (f32::from(host) * (1.0 - l - v) + f32::from(lam) * l + f32::from(void) * v)
-                        / 255.0
-                })
-                .collect();
-            chans.push(gaussian_blur(&ideal, w, h, spec.blur_sigma_px));
-        }
-        let px: Vec<[u8; 3]> = (0..w * h)
-            .map(|i| {
-                let mut p = [0u8; 3];
-                for (ch, o) in p.iter_mut().enumerate() {
-                    let v = f64::from(chans[ch][i]) + noise_sigma * rng.normal();
-                    *o = (v * 255.0).round().clamp(0.0, 255.0) as u8;
+        let [host, lam, void] = colours;
+        let host_cov: Vec<f32> = grey
+            .lamella_coverage
+            .iter()
+            .zip(&grey.void_coverage)
+            .map(|(&l, &v)| (1.0 - l - v).max(0.0))
+            .collect();
+        let image = render_stained(
+            spec,
+            &[&host_cov, &grey.lamella_coverage],
+            &grey.void_coverage,
+            &[host, lam],
+            void,
+            noise_sigma,
+        )?;
+        Ok((image, grey))
+    }
+}
+
+/// A further set of parallel lamellae for multi-phase synthetic images.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LamellaSet {
+    /// Repeat distance across the lamellae, px.
+    pub period_px: f64,
+    /// Lamella width, px.
+    pub lamella_width_px: f64,
+    /// Direction along the lamellae, degrees from the x axis.
+    pub angle_deg: f64,
+    /// Shift of the pattern across the lamellae, px.
+    pub offset_px: f64,
+}
+
+/// A stained multi-phase synthetic image with its truth.
+#[derive(Debug, Clone)]
+pub struct StainedSynthetic {
+    /// The colour image.
+    pub image: Micrograph,
+    /// Exact coverage of each phase per pixel (host first, then the spec's lamellae, then each
+    /// further set), voids removed.
+    pub phase_coverage: Vec<Vec<f32>>,
+    /// Exact void coverage per pixel.
+    pub void_coverage: Vec<f32>,
+}
+
+/// A stained image of `2 + extra.len()` phases: the host, the lamellae of `spec`, and each
+/// further set of lamellae (a later set covers the earlier ones where they cross), with the
+/// cracks and pores of `spec` as voids. `phase_colours` are the sRGB colours of the phases in
+/// that order; coverage by `spec.supersample`² sub-samples.
+///
+/// Rendering, in linear light as a camera sees it: each colour is decoded from sRGB
+/// (IEC 61966-2-1), the phases are mixed by their coverage of the pixel, blurred by a Gaussian
+/// of `spec.blur_sigma_px` (optical blur mixes light linearly), multiplied by the illumination
+/// gain `1 + g (x/w - 1/2) + g/2 (y/h - 1/2)` with `g = spec.gradient`, encoded to sRGB, and
+/// Gaussian noise of `noise_sigma` (fraction of full scale) is added per channel before
+/// rounding to 8 bits.
+pub fn stained_multi(
+    spec: &SyntheticSpec,
+    extra: &[LamellaSet],
+    phase_colours: &[[u8; 3]],
+    void_colour: [u8; 3],
+    noise_sigma: f64,
+) -> Result<StainedSynthetic> {
+    let n = 2 + extra.len();
+    if phase_colours.len() != n {
+        return Err(crate::error::MicrographError::InvalidParameter {
+            name: "phase_colours",
+            value: phase_colours.len().to_string(),
+            expected: format!("one colour per phase ({n})"),
+        });
+    }
+    let (w, h) = (spec.width as usize, spec.height as usize);
+    let ss = spec.supersample.max(1);
+    let normal = |deg: f64| {
+        let a = deg.to_radians();
+        (-a.sin(), a.cos())
+    };
+    let (nx, ny) = normal(spec.angle_deg);
+    let sets: Vec<(f64, f64, LamellaSet)> = extra
+        .iter()
+        .map(|s| {
+            let (a, b) = normal(s.angle_deg);
+            (a, b, *s)
+        })
+        .collect();
+    let mut cov = vec![0f32; n * w * h];
+    let mut void = vec![0f32; w * h];
+    cov.par_chunks_mut(n * w)
+        .zip(void.par_chunks_mut(w))
+        .enumerate()
+        .for_each(|(y, (crow, vrow))| {
+            for x in 0..w {
+                let mut counts = vec![0u32; n];
+                let mut nv = 0u32;
+                for sy in 0..ss {
+                    for sx in 0..ss {
+                        let px = x as f64 + (sx as f64 + 0.5) / ss as f64;
+                        let py = y as f64 + (sy as f64 + 0.5) / ss as f64;
+                        let is_void = spec
+                            .pores
+                            .iter()
+                            .any(|&(cx, cy, r)| (px - cx).hypot(py - cy) < r)
+                            || spec
+                                .cracks
+                                .iter()
+                                .any(|c| dist_to_segment(px, py, c) < c.4 / 2.0);
+                        if is_void {
+                            nv += 1;
+                            continue;
+                        }
+                        let mut phase = 0;
+                        if (px * nx + py * ny).rem_euclid(spec.period_px) < spec.lamella_width_px {
+                            phase = 1;
+                        }
+                        for (k, (ax, ay, s)) in sets.iter().enumerate() {
+                            if (px * ax + py * ay + s.offset_px).rem_euclid(s.period_px)
+                                < s.lamella_width_px
+                            {
+                                phase = 2 + k;
+                            }
+                        }
+                        counts[phase] += 1;
+                    }
                 }
-                p
+                let total = (ss * ss) as f32;
+                for (k, c) in counts.iter().enumerate() {
+                    crow[k * w + x] = *c as f32 / total;
+                }
+                vrow[x] = nv as f32 / total;
+            }
+        });
+    // Regroup per phase.
+    let phase_coverage: Vec<Vec<f32>> = (0..n)
+        .map(|k| {
+            cov.chunks(n * w)
+                .flat_map(|row| row[k * w..(k + 1) * w].iter().copied())
+                .collect()
+        })
+        .collect();
+    drop(cov);
+    let refs: Vec<&[f32]> = phase_coverage.iter().map(|c| c.as_slice()).collect();
+    let image = render_stained(spec, &refs, &void, phase_colours, void_colour, noise_sigma)?;
+    Ok(StainedSynthetic {
+        image,
+        phase_coverage,
+        void_coverage: void,
+    })
+}
+
+/// Renders coverages as a colour image (see [`stained_multi`]).
+fn render_stained(
+    spec: &SyntheticSpec,
+    coverage: &[&[f32]],
+    void: &[f32],
+    colours: &[[u8; 3]],
+    void_colour: [u8; 3],
+    noise_sigma: f64,
+) -> Result<Micrograph> {
+    use crate::colour::{linear_to_srgb, srgb_to_linear};
+    let (w, h) = (spec.width as usize, spec.height as usize);
+    let lin = |c: [u8; 3]| c.map(|v| srgb_to_linear(f64::from(v) / 255.0));
+    let phase_lin: Vec<[f64; 3]> = colours.iter().map(|&c| lin(c)).collect();
+    let void_lin = lin(void_colour);
+    let mut chans = Vec::with_capacity(3);
+    for ch in 0..3 {
+        let ideal: Vec<f32> = (0..w * h)
+            .map(|i| {
+                let mut v = f64::from(void[i]) * void_lin[ch];
+                for (cov, c) in coverage.iter().zip(&phase_lin) {
+                    v += f64::from(cov[i]) * c[ch];
+                }
+                v as f32
             })
             .collect();
-        Ok((
-            Micrograph::new(spec.width, spec.height, Pixels::Rgb8(px))?,
-            grey,
-        ))
+        chans.push(gaussian_blur(&ideal, w, h, spec.blur_sigma_px));
     }
+    let mut rng = SplitMix64::new(spec.seed ^ 0xC0FFEE);
+    let px: Vec<[u8; 3]> = (0..w * h)
+        .map(|i| {
+            let (x, y) = ((i % w) as f64, (i / w) as f64);
+            let gain = 1.0
+                + spec.gradient * (x / w as f64 - 0.5)
+                + spec.gradient / 2.0 * (y / h as f64 - 0.5);
+            let mut p = [0u8; 3];
+            for (ch, o) in p.iter_mut().enumerate() {
+                let v = linear_to_srgb(f64::from(chans[ch][i]) * gain) + noise_sigma * rng.normal();
+                *o = (v * 255.0).round().clamp(0.0, 255.0) as u8;
+            }
+            p
+        })
+        .collect();
+    Micrograph::new(spec.width, spec.height, Pixels::Rgb8(px))
 }

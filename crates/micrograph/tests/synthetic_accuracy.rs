@@ -91,40 +91,58 @@ fn sixteen_bit_recovers_fraction_within_half_a_percent() {
     }
 }
 
+/// "User-picked" samples: up to 200 pixels (every 7th) whose construction coverage is pure.
+fn pick(rgb: &[[u8; 3]], pred: &dyn Fn(usize) -> bool) -> Vec<[u8; 3]> {
+    (0..rgb.len())
+        .filter(|&i| pred(i))
+        .step_by(7)
+        .take(200)
+        .map(|i| rgb[i])
+        .collect()
+}
+
 #[test]
 fn stained_colour_variant_recovers_fraction_within_half_a_percent() {
-    use micrograph::colour::{centroid, kmeans_seeded, segment_colour};
-    // Stained host (yellowish), unstained lamellae (pale grey), dark epoxy in the voids; no
-    // illumination gradient (colour flattening is not implemented).
+    use micrograph::colour::{centroid, flatten_colour, kmeans_seeded, segment_colour};
+    // Stained host (yellowish), unstained lamellae (pale grey), dark epoxy in the voids, under
+    // the default illumination gradient (10% across), flattened in linear light first.
     let spec = SyntheticSpec {
-        gradient: 0.0,
         seed: 9,
         ..SyntheticSpec::default()
     };
+    assert!(spec.gradient > 0.0);
     let colours = [[205, 175, 70], [222, 220, 214], [35, 30, 40]];
-    let (image, syn) = Synthetic::stained(&spec, colours, 0.02).unwrap();
-    let rgb = image.rgb8();
-    // "User-picked" samples: pixels whose construction coverage is pure.
-    let pick = |pred: &dyn Fn(usize) -> bool| -> Vec<[u8; 3]> {
-        (0..rgb.len())
-            .filter(|&i| pred(i))
-            .step_by(7)
-            .take(200)
-            .map(|i| rgb[i])
-            .collect()
-    };
-    let host = centroid(&pick(&|i| {
-        syn.lamella_coverage[i] == 0.0 && syn.void_coverage[i] == 0.0
-    }))
-    .unwrap();
-    let lam = centroid(&pick(&|i| syn.lamella_coverage[i] == 1.0)).unwrap();
-    let void = centroid(&pick(&|i| syn.void_coverage[i] == 1.0)).unwrap();
+    let (raw, syn) = Synthetic::stained(&spec, colours, 0.02).unwrap();
     let region = Mask::full(spec.width, spec.height);
-    let refined = kmeans_seeded(&rgb, &region, &[host, lam, void], 20, &Control::none()).unwrap();
-    for (label, cents) in [
-        ("nearest centroid", vec![host, lam, void]),
-        ("k-means", refined),
-    ] {
+    let pure_host = |i: usize| syn.lamella_coverage[i] == 0.0 && syn.void_coverage[i] == 0.0;
+    let pure_lam = |i: usize| syn.lamella_coverage[i] == 1.0;
+    let pure_void = |i: usize| syn.void_coverage[i] == 1.0;
+    let seeds_of = |rgb: &[[u8; 3]]| {
+        (
+            vec![
+                centroid(&pick(rgb, &pure_host)).unwrap(),
+                centroid(&pick(rgb, &pure_lam)).unwrap(),
+            ],
+            vec![centroid(&pick(rgb, &pure_void)).unwrap()],
+        )
+    };
+    let (phases, voids) = seeds_of(&raw.rgb8());
+    let (image, fl) = flatten_colour(&raw, &region, &phases, &voids, 1, &Control::none()).unwrap();
+    // Source: construction; the fitted gain spans the construction's 1 +/- 0.075 (x and y
+    // terms) within 0.02 at either end.
+    assert!(
+        (fl.max_gain - fl.min_gain - 0.15).abs() < 0.02,
+        "gain {} .. {}",
+        fl.min_gain,
+        fl.max_gain
+    );
+    // Samples picked again on the flattened image, as a user would.
+    let rgb = image.rgb8();
+    let (phases, voids) = seeds_of(&rgb);
+    let mut all = phases.clone();
+    all.extend(&voids);
+    let refined = kmeans_seeded(&rgb, &region, &all, 20, &Control::none()).unwrap();
+    for (label, cents) in [("nearest centroid", all), ("k-means", refined)] {
         let seg = segment_colour(
             &image,
             &region,
@@ -136,15 +154,124 @@ fn stained_colour_variant_recovers_fraction_within_half_a_percent() {
         .unwrap();
         let truth = truth_over_measured(&syn, &seg.class_map);
         let got = seg.phases[1].area_fraction;
+        let unmixed = seg.colour_unmixing.as_ref().unwrap().area_fraction[1];
         eprintln!(
-            "stained {label}: got {got:.5} truth {truth:.5} excluded {:.4}",
+            "stained {label}: got {got:.5} unmixed {unmixed:.5} truth {truth:.5} excluded {:.4}",
             seg.excluded_fraction
         );
+        // Source: the construction; the issue's limit of 0.5 volume %.
         assert!(
             (got - truth).abs() < 0.005,
             "{label}: {got} vs truth {truth}"
         );
+        assert!(
+            (unmixed - truth).abs() < 0.005,
+            "{label}: unmixing {unmixed} vs truth {truth}"
+        );
     }
+}
+
+#[test]
+fn stained_three_and_four_phase_images_unmix_within_half_a_percent() {
+    use micrograph::colour::{centroid, segment_colour};
+    use micrograph::synthetic::{LamellaSet, stained_multi};
+    // Host, the default lamellae, and one or two further sets crossing them, each phase its
+    // own stain colour; no gradient (flattening is checked above).
+    let spec = SyntheticSpec {
+        width: 240,
+        height: 200,
+        gradient: 0.0,
+        seed: 17,
+        ..SyntheticSpec::default()
+    };
+    let sets = [
+        LamellaSet {
+            period_px: 31.0,
+            lamella_width_px: 7.0,
+            angle_deg: -20.0,
+            offset_px: 3.0,
+        },
+        LamellaSet {
+            period_px: 41.0,
+            lamella_width_px: 9.0,
+            angle_deg: 15.0,
+            offset_px: 11.0,
+        },
+    ];
+    let colours = [
+        [205, 175, 70],
+        [222, 220, 214],
+        [120, 150, 200],
+        [170, 80, 90],
+    ];
+    for extra in [&sets[..1], &sets[..]] {
+        let n = 2 + extra.len();
+        let syn = stained_multi(&spec, extra, &colours[..n], [35, 30, 40], 0.02).unwrap();
+        let rgb = syn.image.rgb8();
+        let phases: Vec<_> = (0..n)
+            .map(|k| centroid(&pick(&rgb, &|i| syn.phase_coverage[k][i] == 1.0)).unwrap())
+            .collect();
+        let voids = vec![centroid(&pick(&rgb, &|i| syn.void_coverage[i] == 1.0)).unwrap()];
+        let region = Mask::full(spec.width, spec.height);
+        let seg = segment_colour(
+            &syn.image,
+            &region,
+            &phases,
+            &voids,
+            &SegmentSettings::default(),
+            &Control::none(),
+        )
+        .unwrap();
+        let u = seg.colour_unmixing.as_ref().unwrap();
+        for k in 0..n {
+            // Truth: the construction's coverage of phase k over the measured pixels.
+            let (mut sum, mut cnt) = (0.0f64, 0usize);
+            for (c, cov) in seg.class_map.iter().zip(&syn.phase_coverage[k]) {
+                if *c != NOT_MEASURED {
+                    sum += f64::from(*cov);
+                    cnt += 1;
+                }
+            }
+            let truth = sum / cnt as f64;
+            let (got, unmixed) = (seg.phases[k].area_fraction, u.area_fraction[k]);
+            eprintln!(
+                "{n} phases, phase {k}: classified {got:.5} unmixed {unmixed:.5} truth {truth:.5}"
+            );
+            // Source: the construction; the issue's limit of 0.5 volume %.
+            assert!(
+                (unmixed - truth).abs() < 0.005,
+                "{n} phases, phase {k}: unmixing {unmixed} vs truth {truth}"
+            );
+            assert!(
+                (got - truth).abs() < 0.005,
+                "{n} phases, phase {k}: classification {got} vs truth {truth}"
+            );
+        }
+    }
+}
+
+#[test]
+fn greyscale_three_phases_say_why_there_is_no_unmixing() {
+    let spec = SyntheticSpec::default();
+    let plane = spec
+        .generate()
+        .plane(spec.width, spec.height, true)
+        .unwrap();
+    let settings = SegmentSettings {
+        classes: 3,
+        ..SegmentSettings::default()
+    };
+    let seg = segment(
+        &plane,
+        &Mask::full(spec.width, spec.height),
+        &settings,
+        &Control::none(),
+    )
+    .unwrap();
+    assert!(seg.unmixing.is_none());
+    let note = seg.unmixing_note.as_deref().unwrap();
+    assert!(note.contains("two phases only"), "{note}");
+    assert!(seg.warnings.iter().any(|w| w == note));
 }
 
 /// Thin lamellae (a few blur widths wide): the two images of issue 4, dark 4.5-px lamellae
