@@ -112,6 +112,14 @@ pub enum Action {
     OpenDemo,
     /// Ask for a file to export a figure of the selected grain to.
     ExportFigure(project::figure::FigureKind),
+    /// Compute the selected grain only.
+    RunGrain,
+    /// Ask for a file of spot analyses to add to the project.
+    ImportAnalyses,
+    /// Add this file of spot analyses (checked first).
+    ImportAnalysesPath(PathBuf),
+    /// Ask for a file to write the report to (Markdown or HTML).
+    ExportReport,
 }
 
 /// The shortcuts of the common actions (shown in menus and tooltips).
@@ -138,6 +146,34 @@ pub struct Results {
     pub run: RunResult,
     /// Document revision at the start of the run.
     pub revision: u64,
+    /// Grains computed again since (sample id, grain id), with the revision they were computed
+    /// from.
+    pub grain_revisions: Vec<((String, String), u64)>,
+}
+
+impl Results {
+    /// The revision a grain's result comes from.
+    fn revision_of(&self, sample: &str, grain: &str) -> u64 {
+        self.grain_revisions
+            .iter()
+            .find(|((s, g), _)| s == sample && g == grain)
+            .map_or(self.revision, |(_, r)| *r)
+    }
+
+    /// Put the result of a run of one grain in place of the grain's earlier result.
+    fn merge_grain(&mut self, run: RunResult, revision: u64, sample: String, grain: String) {
+        self.run
+            .grains
+            .retain(|g| !(g.sample == sample && g.grain == grain));
+        self.run
+            .failures
+            .retain(|g| !(g.sample == sample && g.grain == grain));
+        self.run.grains.extend(run.grains);
+        self.run.failures.extend(run.failures);
+        self.grain_revisions
+            .retain(|((s, g), _)| !(*s == sample && *g == grain));
+        self.grain_revisions.push(((sample, grain), revision));
+    }
 }
 
 /// What a panel may read while drawing: the document, results, and what is loaded.
@@ -223,8 +259,12 @@ pub struct Workbench {
     figure_job: Option<FigureJob>,
     results_serial: u64,
     spot_tables: Vec<(MineralSystem, Result<SpotTable, String>)>,
+    spot_tables_for: Vec<project::AnalysisFile>,
+    report_job: Option<std::sync::mpsc::Receiver<String>>,
+    ctx_for_jobs: Option<egui::Context>,
     image_stage: stages::image::ImageStage,
     phases_stage: stages::phases::PhasesStage,
+    analyses_stage: stages::analyses::AnalysesStage,
     temperature_stage: stages::temperature::TemperatureStage,
     status: String,
     prompt: Option<PathPrompt>,
@@ -256,8 +296,12 @@ impl Workbench {
             figure_job: None,
             results_serial: 0,
             spot_tables: Vec::new(),
+            spot_tables_for: Vec::new(),
+            report_job: None,
+            ctx_for_jobs: None,
             image_stage: Default::default(),
             phases_stage: Default::default(),
+            analyses_stage: Default::default(),
             temperature_stage: Default::default(),
             status: String::new(),
             prompt: None,
@@ -310,7 +354,10 @@ impl Workbench {
 
     /// A run or an image job is still going on.
     pub fn busy(&self) -> bool {
-        self.run_job.is_some() || self.image_job.is_some() || self.figure_job.is_some()
+        self.run_job.is_some()
+            || self.image_job.is_some()
+            || self.figure_job.is_some()
+            || self.report_job.is_some()
     }
 
     /// The phase fractions the Phases stage shows for the selected micrograph (grain phase
@@ -327,8 +374,27 @@ impl Workbench {
         Some(stages::phases::phase_fractions(
             grain,
             spec,
-            &classes.segmentation.fractions_at(&levels),
+            &classes.fractions_at(&levels),
         ))
+    }
+
+    /// The selected micrograph's classification is loaded and matches the document.
+    pub fn classification_current(&self) -> bool {
+        let Some(g) = self.grain else { return false };
+        let at = MicrographRef {
+            grain: g,
+            micrograph: self.micrograph,
+        };
+        self.doc.micrograph(at).is_some_and(|spec| {
+            let key = image_key(&self.doc.resolve(&spec.path), spec);
+            self.classes.as_ref().is_some_and(|c| c.key == key)
+        })
+    }
+
+    /// The view state of the micrograph canvas (for tests driving the region and hand tools).
+    #[doc(hidden)]
+    pub fn canvas(&mut self) -> &mut stages::image::ImageStage {
+        &mut self.image_stage
     }
 
     /// Where the Phases stage last drew level `index` (for tests driving the drag).
@@ -362,6 +428,7 @@ impl Workbench {
     }
 
     fn load_spot_tables(&mut self) {
+        self.spot_tables_for = self.doc.project.analysis_files.clone();
         self.spot_tables = self
             .doc
             .project
@@ -377,15 +444,20 @@ impl Workbench {
             .collect();
     }
 
-    fn start_run(&mut self, ctx: &egui::Context) {
+    fn start_run(&mut self, ctx: &egui::Context, only: Option<GrainRef>) {
         if let Some(job) = &self.run_job {
             job.cancel();
         }
+        // One grain is merged into earlier results; with none yet, everything is computed.
+        let only = only
+            .filter(|_| self.results.is_some())
+            .map(|g| (g.sample, g.grain));
         match RunJob::start(
             self.doc.project.clone(),
             self.doc.path_or_default(),
             self.doc.revision,
             ctx.clone(),
+            only,
         ) {
             Ok(job) => {
                 self.run_job = Some(job);
@@ -447,6 +519,108 @@ impl Workbench {
         };
     }
 
+    /// Add a file of spot analyses to the project, for the selected grain's mineral system,
+    /// after reading it: a file that does not read is refused with its file, line and column.
+    pub fn import_analyses(&mut self, path: &std::path::Path) {
+        let system = self
+            .grain
+            .and_then(|g| self.doc.grain(g))
+            .map_or(MineralSystem::Feldspar, |g| g.system);
+        let table = match mineral::read_spot_file(path) {
+            Ok(t) => t,
+            Err(e) => {
+                self.status = format!("not imported: {e}");
+                return;
+            }
+        };
+        let stored = self
+            .doc
+            .path
+            .as_ref()
+            .and_then(|p| p.parent())
+            .and_then(|dir| {
+                let abs = path.canonicalize().ok()?;
+                let dir = dir.canonicalize().ok()?;
+                abs.strip_prefix(dir).ok().map(std::path::Path::to_path_buf)
+            })
+            .unwrap_or_else(|| path.to_path_buf());
+        let for_grain = self.grain.and_then(|g| {
+            let sample = self.doc.sample(g)?;
+            let grain = self.doc.grain(g)?;
+            Some(
+                table
+                    .analyses
+                    .iter()
+                    .filter(|a| a.id.sample == sample.id && a.id.grain == grain.id)
+                    .count(),
+            )
+        });
+        let system_name = match system {
+            MineralSystem::Feldspar => "feldspar",
+            MineralSystem::Pyroxene => "pyroxene",
+        };
+        match self.doc.apply(Command::AddAnalysisFile {
+            path: stored,
+            system,
+        }) {
+            Ok(()) => {
+                self.status = format!(
+                    "imported {} {system_name} analyses from {}{}",
+                    table.analyses.len(),
+                    path.display(),
+                    for_grain
+                        .map(|n| format!(", {n} for the selected grain"))
+                        .unwrap_or_default()
+                );
+                self.load_spot_tables();
+            }
+            Err(e) => self.status = format!("not imported: {e}"),
+        }
+    }
+
+    /// Write the report of the last results to `path`: a self-contained page for `.html`, or
+    /// Markdown for `.md` with its figures in `figures/` beside it. Runs on a worker thread.
+    pub fn export_report(&mut self, path: &std::path::Path) {
+        let Some(results) = &self.results else {
+            self.status = "compute the project first: the report is of its results".into();
+            return;
+        };
+        let ext = path
+            .extension()
+            .and_then(|e| e.to_str())
+            .map(str::to_ascii_lowercase)
+            .unwrap_or_default();
+        if !matches!(ext.as_str(), "html" | "htm" | "md") {
+            self.status = format!("{}: name the report .html or .md", path.display());
+            return;
+        }
+        let project = self.doc.project.clone();
+        let project_file = self.doc.path_or_default();
+        let run = results.run.clone();
+        let path = path.to_path_buf();
+        let (tx, rx) = std::sync::mpsc::channel();
+        let ctx = self.ctx_for_jobs.clone();
+        let spawned = std::thread::Builder::new()
+            .name("consolute-report".into())
+            .spawn(move || {
+                let message = match write_report_file(&project, &project_file, &run, &path, &ext) {
+                    Ok(()) => format!("report written to {}", path.display()),
+                    Err(e) => format!("report not written: {e}"),
+                };
+                let _ = tx.send(message);
+                if let Some(ctx) = ctx {
+                    ctx.request_repaint();
+                }
+            });
+        match spawned {
+            Ok(_) => {
+                self.report_job = Some(rx);
+                self.status = "writing the report…".into();
+            }
+            Err(e) => self.status = format!("could not start the report: {e}"),
+        }
+    }
+
     /// Whether the figures of the selected grain are drawn and current.
     pub fn figures_ready(&self) -> bool {
         self.figure_job.is_none() && self.figures.as_ref().is_some_and(|f| f.grain == self.grain)
@@ -475,7 +649,27 @@ impl Workbench {
                 }
             }
             Action::OpenStage(s) => self.stage = s,
-            Action::Run => self.start_run(ctx),
+            Action::Run => self.start_run(ctx, None),
+            Action::RunGrain => self.start_run(ctx, self.grain),
+            Action::ImportAnalyses => {
+                let folder = self
+                    .doc
+                    .path
+                    .as_ref()
+                    .and_then(|p| p.parent())
+                    .map(|p| p.join("analyses.csv"));
+                self.prompt = Some(PathPrompt::new(PromptPurpose::ImportAnalyses, folder));
+            }
+            Action::ImportAnalysesPath(p) => self.import_analyses(&p),
+            Action::ExportReport => {
+                let folder = self
+                    .doc
+                    .path
+                    .as_ref()
+                    .and_then(|p| p.parent())
+                    .map(|p| p.join("report.html"));
+                self.prompt = Some(PathPrompt::new(PromptPurpose::Report, folder));
+            }
             Action::CancelRun => {
                 if let Some(job) = &self.run_job {
                     job.cancel();
@@ -541,19 +735,36 @@ impl Workbench {
             && let Some(outcome) = job.poll()
         {
             let revision = job.revision;
+            let only = job.only;
             self.run_job = None;
             match outcome {
                 Ok(run) => {
                     self.status = format!(
-                        "computed {} grains{}",
+                        "computed {} grain{}{}",
                         run.grains.len(),
+                        if run.grains.len() == 1 { "" } else { "s" },
                         if run.failures.is_empty() {
                             String::new()
                         } else {
                             format!(", {} could not be computed", run.failures.len())
                         }
                     );
-                    self.results = Some(Results { run, revision });
+                    let one = only.and_then(|(s, g)| {
+                        let sample = self.doc.project.samples.get(s)?;
+                        Some((sample.id.clone(), sample.grains.get(g)?.id.clone()))
+                    });
+                    match (one, self.results.as_mut()) {
+                        (Some((sample, grain)), Some(results)) => {
+                            results.merge_grain(run, revision, sample, grain);
+                        }
+                        _ => {
+                            self.results = Some(Results {
+                                run,
+                                revision,
+                                grain_revisions: Vec::new(),
+                            })
+                        }
+                    }
                     self.results_serial += 1;
                     self.run_error = None;
                 }
@@ -600,12 +811,16 @@ impl Workbench {
             if !have {
                 let max_side = ctx.input(|i| i.max_texture_side);
                 let reuse = self.image_data.clone();
+                let reuse_base = self
+                    .classes
+                    .as_ref()
+                    .map(|c| (c.base_key.clone(), c.base.clone()));
                 if self.image_data.as_ref().is_some_and(|d| d.path != path) {
                     self.image_data = None;
                     self.classes = None;
                 }
                 self.image_error = None;
-                match ImageJob::start(ctx.clone(), path, spec, reuse, max_side) {
+                match ImageJob::start(ctx.clone(), path, spec, reuse, reuse_base, max_side) {
                     Ok(job) => self.image_job = Some(job),
                     Err(e) => self.image_error = Some((key, e)),
                 }
@@ -701,21 +916,65 @@ impl Workbench {
     /// Draw the whole window into `ui` and apply what the user asked for.
     pub fn ui_root(&mut self, ui: &mut Ui) {
         let ctx = ui.ctx().clone();
+        if self.ctx_for_jobs.is_none() {
+            self.ctx_for_jobs = Some(ctx.clone());
+        }
         if !self.started {
             self.started = true;
             if self.options.run_on_open && !self.doc.project.samples.is_empty() {
-                self.start_run(&ctx);
+                self.start_run(&ctx, None);
+            }
+        }
+        if self.doc.project.analysis_files != self.spot_tables_for {
+            self.load_spot_tables();
+        }
+        if let Some(rx) = &self.report_job {
+            match rx.try_recv() {
+                Ok(message) => {
+                    self.status = message;
+                    self.report_job = None;
+                }
+                Err(std::sync::mpsc::TryRecvError::Disconnected) => {
+                    self.status = "the report stopped unexpectedly".into();
+                    self.report_job = None;
+                }
+                Err(std::sync::mpsc::TryRecvError::Empty) => {}
             }
         }
         self.tend_jobs(&ctx);
         self.autosave(ctx.input(|i| i.time));
         let mut actions = Vec::new();
         self.shortcuts(&ctx, &mut actions);
+        // Files dropped on the window: analyses are imported, a project is opened.
+        for file in ctx.input(|i| i.raw.dropped_files.clone()) {
+            let path = file.path().to_path_buf();
+            if path.as_os_str().is_empty() {
+                continue;
+            }
+            let ext = path
+                .extension()
+                .and_then(|e| e.to_str())
+                .map(str::to_ascii_lowercase)
+                .unwrap_or_default();
+            match ext.as_str() {
+                "csv" | "tsv" | "txt" => actions.push(Action::ImportAnalysesPath(path)),
+                "json" => actions.push(Action::OpenPath(path)),
+                _ => {
+                    self.status = format!(
+                        "{}: drop a CSV of spot analyses or a project (.json)",
+                        path.display()
+                    )
+                }
+            }
+        }
 
-        let stale = self
-            .results
-            .as_ref()
-            .is_some_and(|r| r.revision != self.doc.revision);
+        let stale = self.results.as_ref().is_some_and(|r| {
+            let selected = self.grain.and_then(|g| {
+                let sample = self.doc.sample(g)?;
+                Some(r.revision_of(&sample.id, &self.doc.grain(g)?.id))
+            });
+            selected.unwrap_or(r.revision) != self.doc.revision
+        });
         let wanted_key = self.grain.and_then(|g| {
             let spec = self.doc.micrograph(MicrographRef {
                 grain: g,
@@ -784,11 +1043,12 @@ impl Workbench {
             ui.separator();
             match self.stage {
                 Stage::Image => self.image_stage.ui(ui, &view, &mut actions),
+
                 Stage::Phases => {
                     self.phases_stage
                         .ui(ui, &view, &mut self.image_stage, &mut actions)
                 }
-                Stage::Analyses => stages::analyses::ui(ui, &view, &mut actions),
+                Stage::Analyses => self.analyses_stage.ui(ui, &view, &mut actions),
                 Stage::Bulk => stages::bulk::ui(ui, &view, self.run_job.as_ref(), &mut actions),
                 Stage::Temperature => self.temperature_stage.ui(ui, &view, &mut actions),
             }
@@ -814,6 +1074,14 @@ impl Workbench {
                 files::PromptOutcome::Export(kind, p) => {
                     self.prompt = None;
                     self.export_figure(kind, &p);
+                }
+                files::PromptOutcome::ImportAnalyses(p) => {
+                    self.prompt = None;
+                    actions.push(Action::ImportAnalysesPath(p));
+                }
+                files::PromptOutcome::Report(p) => {
+                    self.prompt = None;
+                    self.export_report(&p);
                 }
                 files::PromptOutcome::Cancel => self.prompt = None,
                 files::PromptOutcome::Pending => {}
@@ -905,5 +1173,42 @@ impl eframe::App for Workbench {
         if let Some(job) = &self.run_job {
             job.cancel();
         }
+    }
+}
+
+/// One report file: HTML with the figures inline, or Markdown with the figures (SVG, PNG, PDF)
+/// in `figures/` beside it, as its links expect.
+fn write_report_file(
+    project: &project::Project,
+    project_file: &std::path::Path,
+    run: &RunResult,
+    path: &std::path::Path,
+    ext: &str,
+) -> Result<(), String> {
+    use project::report::{REPORT_DPI, grain_figures, report_blocks, to_html, to_markdown};
+    let figures = grain_figures(project, project_file, run);
+    let blocks = report_blocks(project, run, &figures);
+    if ext == "md" {
+        let dir = path
+            .parent()
+            .unwrap_or_else(|| std::path::Path::new("."))
+            .join("figures");
+        std::fs::create_dir_all(&dir).map_err(|e| format!("{}: {e}", dir.display()))?;
+        for f in &figures {
+            let Ok(fig) = &f.figure else { continue };
+            for (suffix, format) in [
+                ("svg", project::figure::render::Format::Svg),
+                ("png", project::figure::render::Format::Png),
+                ("pdf", project::figure::render::Format::Pdf),
+            ] {
+                let bytes = project::figure::render::encode(fig, format, REPORT_DPI)
+                    .map_err(|e| format!("{} {}: {e}", f.grain, f.kind.name()))?;
+                project::write_atomically(&dir.join(format!("{}.{suffix}", f.stem)), &bytes)
+                    .map_err(|e| e.to_string())?;
+            }
+        }
+        project::write_atomically(path, to_markdown(&blocks).as_bytes()).map_err(|e| e.to_string())
+    } else {
+        project::write_atomically(path, to_html(&blocks).as_bytes()).map_err(|e| e.to_string())
     }
 }

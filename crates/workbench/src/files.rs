@@ -58,6 +58,10 @@ pub enum PromptPurpose {
     SaveAs,
     /// Export a figure.
     Export(project::figure::FigureKind),
+    /// Add a file of spot analyses.
+    ImportAnalyses,
+    /// Write the report.
+    Report,
 }
 
 /// What the prompt ended with.
@@ -72,6 +76,10 @@ pub enum PromptOutcome {
     SaveAs(PathBuf),
     /// Export the figure to this file.
     Export(project::figure::FigureKind, PathBuf),
+    /// Import the spot analyses of this file.
+    ImportAnalyses(PathBuf),
+    /// Write the report to this file.
+    Report(PathBuf),
 }
 
 /// A small window with a path field and a "Browse…" button.
@@ -105,14 +113,22 @@ impl PathPrompt {
                     PromptPurpose::Export(_) => {
                         rfd::FileDialog::new().add_filter("Figure", &["svg", "png", "pdf"])
                     }
+                    PromptPurpose::ImportAnalyses => {
+                        rfd::FileDialog::new().add_filter("Spot analyses", &["csv", "tsv", "txt"])
+                    }
+                    PromptPurpose::Report => {
+                        rfd::FileDialog::new().add_filter("Report", &["html", "md"])
+                    }
                     _ => rfd::FileDialog::new().add_filter("Consolute project", &["json"]),
                 };
                 if let Some(dir) = start.parent().filter(|d| d.is_dir()) {
                     dialog = dialog.set_directory(dir);
                 }
                 let chosen = match purpose {
-                    PromptPurpose::Open => dialog.pick_file(),
-                    PromptPurpose::SaveAs | PromptPurpose::Export(_) => dialog.save_file(),
+                    PromptPurpose::Open | PromptPurpose::ImportAnalyses => dialog.pick_file(),
+                    PromptPurpose::SaveAs | PromptPurpose::Export(_) | PromptPurpose::Report => {
+                        dialog.save_file()
+                    }
                 };
                 let _ = tx.send(chosen);
                 ctx.request_repaint();
@@ -145,6 +161,8 @@ impl PathPrompt {
             PromptPurpose::Open => "Open project",
             PromptPurpose::SaveAs => "Save project as",
             PromptPurpose::Export(_) => "Export figure",
+            PromptPurpose::ImportAnalyses => "Import spot analyses",
+            PromptPurpose::Report => "Export report",
         };
         let mut outcome = PromptOutcome::Pending;
         let mut open = true;
@@ -155,6 +173,12 @@ impl PathPrompt {
             .show(ctx, |ui| {
                 let l = ui.label(match self.purpose {
                     PromptPurpose::Export(_) => "Figure file (.svg, .png or .pdf):",
+                    PromptPurpose::ImportAnalyses => {
+                        "Spot analyses (CSV: sample, grain, phase, spot and oxide columns):"
+                    }
+                    PromptPurpose::Report => {
+                        "Report file (.html, self-contained; or .md, figures written to figures/ beside it):"
+                    }
                     _ => "Project file (.json):",
                 });
                 let edit = ui
@@ -180,19 +204,28 @@ impl PathPrompt {
                     let verb = match self.purpose {
                         PromptPurpose::Open => "Open",
                         PromptPurpose::SaveAs => "Save",
-                        PromptPurpose::Export(_) => "Export",
+                        PromptPurpose::Export(_) | PromptPurpose::Report => "Export",
+                        PromptPurpose::ImportAnalyses => "Import",
                     };
                     if ui.button(verb).clicked() || entered {
                         let path = PathBuf::from(self.text.trim());
                         if self.text.trim().is_empty() {
                             self.note = Some("type a path first".into());
-                        } else if self.purpose == PromptPurpose::Open && !path.is_file() {
+                        } else if matches!(
+                            self.purpose,
+                            PromptPurpose::Open | PromptPurpose::ImportAnalyses
+                        ) && !path.is_file()
+                        {
                             self.note = Some(format!("{} is not a file", path.display()));
                         } else {
                             outcome = match self.purpose {
                                 PromptPurpose::Open => PromptOutcome::Open(path),
                                 PromptPurpose::SaveAs => PromptOutcome::SaveAs(path),
                                 PromptPurpose::Export(kind) => PromptOutcome::Export(kind, path),
+                                PromptPurpose::ImportAnalyses => {
+                                    PromptOutcome::ImportAnalyses(path)
+                                }
+                                PromptPurpose::Report => PromptOutcome::Report(path),
                             };
                         }
                     }

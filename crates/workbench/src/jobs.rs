@@ -11,7 +11,8 @@ use egui::{Color32, Context};
 use micrograph::control::Control;
 use micrograph::load::{GrayPlane, LoadOptions, load};
 use micrograph::segment::{NOT_MEASURED, Segmentation, segment};
-use project::{MicrographSpec, Project, RunProgress, RunResult, run_project};
+use project::hand::{HandEditOutcome, apply_hand_edits};
+use project::{MicrographSpec, Project, RunProgress, RunResult, run_one_grain, run_project};
 use reintegration::JobControl;
 
 use crate::tiles::{Pixels, TiledImage};
@@ -33,11 +34,14 @@ pub struct RunJob {
     total_draws: usize,
     /// Document revision the run was started from.
     pub revision: u64,
+    /// The one grain computed (sample and grain index), or `None` for the whole project.
+    pub only: Option<(usize, usize)>,
     rx: mpsc::Receiver<Result<RunResult, String>>,
 }
 
 impl RunJob {
-    /// Start a run of `project` (read from `path`).
+    /// Start a run of `project` (read from `path`): every grain, or only the grain `only`
+    /// (sample and grain index).
     ///
     /// # Errors
     /// When the thread cannot be started.
@@ -46,17 +50,27 @@ impl RunJob {
         path: PathBuf,
         revision: u64,
         ctx: Context,
+        only: Option<(usize, usize)>,
     ) -> Result<Self, String> {
         let control = Arc::new(JobControl::default());
         let grains_started = Arc::new(AtomicUsize::new(0));
-        let grains: usize = project.samples.iter().map(|s| s.grains.len()).sum();
+        let grains: usize = match only {
+            Some(_) => 1,
+            None => project.samples.iter().map(|s| s.grains.len()).sum(),
+        };
         let total_draws = grains * project.settings.draws;
         let (tx, rx) = mpsc::channel();
         let (c, g) = (control.clone(), grains_started.clone());
         std::thread::Builder::new()
             .name("consolute-run".into())
             .spawn(move || {
-                let result = run_project(&project, &path, &GrainCounter(g), &c);
+                let result = match only {
+                    Some((s, gr)) => {
+                        g.store(1, Ordering::Relaxed);
+                        run_one_grain(&project, &path, s, gr, &c)
+                    }
+                    None => run_project(&project, &path, &GrainCounter(g), &c),
+                };
                 let _ = tx.send(result);
                 ctx.request_repaint();
             })
@@ -67,6 +81,7 @@ impl RunJob {
             grains,
             total_draws,
             revision,
+            only,
             rx,
         })
     }
@@ -121,12 +136,32 @@ pub struct ImageData {
 
 /// A classified micrograph.
 pub struct ClassData {
-    /// The settings it was classified with (see [`image_key`]).
+    /// The settings and hand edits it was classified with (see [`image_key`]).
     pub key: String,
-    /// The classification.
+    /// The settings of the automatic classification alone (see [`base_key`]).
+    pub base_key: String,
+    /// The automatic classification, before hand edits (kept so that a new hand edit does not
+    /// classify the image again).
+    pub base: Arc<Segmentation>,
+    /// The classification with the hand edits applied.
     pub segmentation: Segmentation,
+    /// What the hand edits did (none: no edits).
+    pub hand: Option<HandEditOutcome>,
+    /// Why the hand edits could not be applied (the automatic classification is shown).
+    pub hand_error: Option<String>,
     /// The classes as coloured tiles.
     pub overlay: TiledImage,
+}
+
+impl ClassData {
+    /// Fractions of the measured area per class at other levels, from the histogram (pixels
+    /// under hand edits keep their phase).
+    pub fn fractions_at(&self, levels: &[u16]) -> Vec<f64> {
+        match &self.hand {
+            Some(h) => h.fractions_at(levels),
+            None => self.segmentation.fractions_at(levels),
+        }
+    }
 }
 
 /// What the image job sends back.
@@ -137,14 +172,25 @@ pub struct ImageOutcome {
     pub classes: Result<ClassData, String>,
 }
 
-/// Identifies what a classification depends on.
-pub fn image_key(path: &std::path::Path, spec: &MicrographSpec) -> String {
+/// Identifies what the automatic classification depends on.
+pub fn base_key(path: &std::path::Path, spec: &MicrographSpec) -> String {
     format!(
         "{}|{:?}|{:?}|{:?}",
         path.display(),
         spec.region,
         spec.segmentation,
         spec.pixel_size_um
+    )
+}
+
+/// Identifies what the classification shown depends on (the automatic one, the hand edits and
+/// the phases they name).
+pub fn image_key(path: &std::path::Path, spec: &MicrographSpec) -> String {
+    format!(
+        "{}|{:?}|{:?}",
+        base_key(path, spec),
+        spec.hand_edits,
+        spec.class_phases
     )
 }
 
@@ -180,6 +226,7 @@ impl ImageJob {
         path: PathBuf,
         spec: MicrographSpec,
         reuse: Option<Arc<ImageData>>,
+        reuse_base: Option<(String, Arc<Segmentation>)>,
         max_texture_side: usize,
     ) -> Result<Self, String> {
         let key = image_key(&path, &spec);
@@ -202,7 +249,7 @@ impl ImageJob {
                             cancel: Some(&cancel2),
                             progress: Some(&report),
                         };
-                        classify(&ctx, data, &spec, &control, tile, key2)
+                        classify(&ctx, data, &spec, &control, tile, key2, reuse_base)
                     }
                     Err(e) => Err(e.clone()),
                 };
@@ -310,18 +357,39 @@ fn classify(
     control: &Control<'_>,
     tile: usize,
     key: String,
+    reuse_base: Option<(String, Arc<Segmentation>)>,
 ) -> Result<ClassData, String> {
     let plane = &data.plane;
-    let region = spec
-        .region
-        .rasterise(plane.width, plane.height)
-        .map_err(|e| format!("region: {e}"))?;
     let mut settings = spec.segmentation.clone();
     if let Some(size) = spec.pixel_size_um {
         settings.pixel_size =
             Some(micrograph::calibration::PixelSize::new(size).map_err(|e| e.to_string())?);
     }
-    let segmentation = segment(plane, &region, &settings, control).map_err(|e| e.to_string())?;
+    let base_key = base_key(&data.path, spec);
+    let base = match reuse_base.filter(|(k, _)| *k == base_key) {
+        Some((_, base)) => base,
+        None => {
+            let region = spec
+                .region
+                .rasterise(plane.width, plane.height)
+                .map_err(|e| format!("region: {e}"))?;
+            Arc::new(segment(plane, &region, &settings, control).map_err(|e| e.to_string())?)
+        }
+    };
+    let mut segmentation = (*base).clone();
+    let (hand, hand_error) = match apply_hand_edits(
+        &mut segmentation,
+        plane,
+        &spec.hand_edits,
+        &spec.class_phases,
+        &settings,
+    ) {
+        Ok(h) => (h, None),
+        Err(e) => {
+            segmentation = (*base).clone();
+            (None, Some(e))
+        }
+    };
     let colours: Vec<Color32> = (0..settings.classes).map(class_colour).collect();
     let overlay = segmentation
         .class_map
@@ -339,10 +407,20 @@ fn classify(
         height: plane.height as usize,
         data: overlay,
     };
-    let overlay = TiledImage::new(ctx, &format!("classes:{key}"), pixels, tile, false);
+    let name = {
+        use std::hash::{Hash, Hasher};
+        let mut h = std::collections::hash_map::DefaultHasher::new();
+        key.hash(&mut h);
+        format!("classes:{:016x}", h.finish())
+    };
+    let overlay = TiledImage::new(ctx, &name, pixels, tile, false);
     Ok(ClassData {
         key,
+        base_key,
+        base,
         segmentation,
+        hand,
+        hand_error,
         overlay,
     })
 }

@@ -43,6 +43,22 @@ pub fn ui(
             {
                 actions.push(Action::SaveAs);
             }
+            ui.separator();
+            if ui
+                .button("Import spot analyses…")
+                .on_hover_text("Add a CSV of microprobe spot analyses for the selected grain's mineral (or drop the file on the window)")
+                .clicked()
+            {
+                actions.push(Action::ImportAnalyses);
+            }
+            let report = ui.add_enabled(view.run.is_some(), egui::Button::new("Export report…"));
+            if report
+                .on_hover_text("Write the report of the last results: .html (one self-contained page) or .md (figures beside it)")
+                .on_disabled_hover_text("Compute the project first")
+                .clicked()
+            {
+                actions.push(Action::ExportReport);
+            }
         });
         ui.menu_button("Edit", |ui| {
             let undo = match view.doc.undo_label() {

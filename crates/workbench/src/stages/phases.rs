@@ -5,24 +5,46 @@
 
 use egui::{Color32, Pos2, Sense, Ui, pos2};
 use egui_plot::{Line, LineStyle, Plot, VLine};
-use micrograph::segment::{LevelChoice, Segmentation};
-use project::{Grain, MicrographSpec};
+use micrograph::order::{PhaseZ, bse_order_hint};
+use micrograph::segment::{LevelChoice, Segmentation, VoidDetection};
+use project::{Grain, MicrographSpec, PointGrid};
 
-use super::image::ImageStage;
+use super::image::{ImageStage, Tool};
 use crate::app::{Action, View};
-use crate::command::Command;
+use crate::command::{AutoLevels, Command, MAX_CLASSES};
 use crate::document::MicrographRef;
 use crate::jobs::class_colour;
 
 /// View state of the Phases stage.
-#[derive(Default)]
 pub struct PhasesStage {
     /// Levels being dragged, for the micrograph being edited.
     live: Option<(MicrographRef, Vec<u16>)>,
     dragging: Option<usize>,
     handles: Vec<Pos2>,
     rim_text: Option<u8>,
+    min_feature_text: Option<u32>,
+    void_level_text: Option<u16>,
     overlay_on: bool,
+    grid_spacing_px: f64,
+    random_points: usize,
+    random_seed: u64,
+}
+
+impl Default for PhasesStage {
+    fn default() -> Self {
+        PhasesStage {
+            live: None,
+            dragging: None,
+            handles: Vec::new(),
+            rim_text: None,
+            min_feature_text: None,
+            void_level_text: None,
+            overlay_on: false,
+            grid_spacing_px: 40.0,
+            random_points: 300,
+            random_seed: 1,
+        }
+    }
 }
 
 /// Fractions per grain phase from fractions per class (dark to bright), through the class to
@@ -85,6 +107,14 @@ impl PhasesStage {
             self.live = None;
             self.dragging = None;
         }
+        if matches!(
+            image.tool,
+            super::image::Tool::Region(_)
+                | super::image::Tool::Vertices
+                | super::image::Tool::ScaleBar
+        ) {
+            image.set_tool(super::image::Tool::Pan);
+        }
         let (Some(spec), Some(grain)) = (view.doc.micrograph(at), view.doc.grain(at.grain)) else {
             return;
         };
@@ -95,6 +125,10 @@ impl PhasesStage {
             .show(ui, |ui| {
                 egui::ScrollArea::vertical().show(ui, |ui| {
                     self.controls_ui(ui, view, at, spec, grain, actions);
+                    ui.separator();
+                    self.hand_ui(ui, view, at, spec, grain, image, actions);
+                    ui.separator();
+                    self.points_ui(ui, view, at, spec, grain, image, actions);
                 });
             });
         ui.horizontal_wrapped(|ui| image.toolbar_ui(ui, view, actions));
@@ -103,7 +137,7 @@ impl PhasesStage {
             self.overlay_on = true;
             image.show_classes = true;
         }
-        let hover = image.canvas_ui(ui, view, true);
+        let hover = image.canvas_ui(ui, view, true, actions);
         image.hover_line(ui, view, hover);
     }
 
@@ -156,7 +190,7 @@ impl PhasesStage {
         ui.weak("Drag a level line to move it; the fractions follow at once.");
 
         // Fractions.
-        let class_fractions = seg.fractions_at(&levels);
+        let class_fractions = classes.fractions_at(&levels);
         let at_classified_levels = levels == seg.levels && view.classes_current;
         ui.add_space(6.0);
         ui.label(egui::RichText::new("Area fractions of the measured area").strong())
@@ -203,43 +237,13 @@ impl PhasesStage {
                 .unwrap_or_default()
         ));
 
-        // Level controls.
+        // Classification settings.
         ui.add_space(6.0);
-        ui.horizontal(|ui| {
-            let auto = matches!(spec.segmentation.levels, LevelChoice::Manual(_));
-            if ui
-                .add_enabled(auto, egui::Button::new("Automatic levels"))
-                .on_hover_text("Otsu's method, each level then moved to the midpoint between the modes of its two phases")
-                .clicked()
-            {
-                actions.push(Action::Edit(Command::AutoLevels { at }));
-            }
-            let method = match &spec.segmentation.levels {
-                LevelChoice::Manual(_) => "levels set by hand",
-                LevelChoice::Otsu => "Otsu levels",
-                LevelChoice::OtsuMidpoint => "Otsu levels, refined to mode midpoints",
-                _ => "levels",
-            };
-            ui.weak(method);
-        });
-        ui.horizontal(|ui| {
-            let l = ui.label("Void rim");
-            l.clone()
-                .on_hover_text("Pixels left out around cracks and pores, as wide as the edge blur");
-            let mut rim = self.rim_text.unwrap_or(spec.segmentation.rim_px);
-            let r = ui
-                .add(egui::DragValue::new(&mut rim).range(0..=20).suffix(" px"))
-                .labelled_by(l.id);
-            if r.changed() {
-                self.rim_text = Some(rim);
-            }
-            if (r.drag_stopped() || r.lost_focus() || (r.changed() && !r.dragged()))
-                && let Some(v) = self.rim_text.take()
-                && v != spec.segmentation.rim_px
-            {
-                actions.push(Action::Edit(Command::SetVoidRim { at, rim_px: v }));
-            }
-        });
+        ui.label(egui::RichText::new("Classification").strong());
+        egui::Grid::new("classification-settings")
+            .num_columns(2)
+            .show(ui, |ui| self.settings_ui(ui, at, spec, seg, actions));
+        self.assignment_ui(ui, view, at, spec, grain, seg, actions);
 
         // Warnings and shape.
         for w in &seg.warnings {
@@ -276,6 +280,592 @@ impl PhasesStage {
                 ui.end_row();
             });
         }
+    }
+
+    fn settings_ui(
+        &mut self,
+        ui: &mut Ui,
+        at: MicrographRef,
+        spec: &MicrographSpec,
+        seg: &Segmentation,
+        actions: &mut Vec<Action>,
+    ) {
+        let s = &spec.segmentation;
+        let l = ui.label("Phases");
+        l.clone().on_hover_text(
+            "Number of grey classes the measured pixels are split into, dark to bright (voids are found separately)",
+        );
+        let mut classes = s.classes;
+        if ui
+            .add(egui::DragValue::new(&mut classes).range(2..=MAX_CLASSES))
+            .labelled_by(l.id)
+            .changed()
+            && classes != s.classes
+        {
+            actions.push(Action::Edit(Command::SetClasses { at, classes }));
+        }
+        ui.end_row();
+
+        let l = ui.label("Levels");
+        l.clone()
+            .on_hover_text("How the grey levels between the phases are chosen");
+        let current = match &s.levels {
+            LevelChoice::Manual(_) => "set by hand (drag a level line)",
+            LevelChoice::Otsu => "Otsu's method",
+            LevelChoice::OtsuMidpoint => "Otsu, then mode midpoints",
+            _ => "other",
+        };
+        egui::ComboBox::from_id_salt(("level-method", at.micrograph))
+            .selected_text(current)
+            .width(230.0)
+            .show_ui(ui, |ui| {
+                let otsu = ui
+                    .selectable_label(matches!(s.levels, LevelChoice::Otsu), "Otsu's method")
+                    .on_hover_text("Otsu (1979): the levels that maximise the between-class variance; multi-level Otsu above two phases");
+                if otsu.clicked() {
+                    actions.push(Action::Edit(Command::SetAutoLevels {
+                        at,
+                        method: AutoLevels::Otsu,
+                    }));
+                }
+                let mid = ui
+                    .selectable_label(
+                        matches!(s.levels, LevelChoice::OtsuMidpoint),
+                        "Otsu, then mode midpoints",
+                    )
+                    .on_hover_text("Otsu's levels, each moved to the midpoint between the modes of its two phases (unbiased by symmetric edge blur); with two phases, half-way between the pure levels");
+                if mid.clicked() {
+                    actions.push(Action::Edit(Command::SetAutoLevels {
+                        at,
+                        method: AutoLevels::OtsuMidpoint,
+                    }));
+                }
+                ui.weak("Drag a level line for levels by hand.");
+            })
+            .response
+            .labelled_by(l.id);
+        ui.end_row();
+
+        let l = ui.label("Voids");
+        l.clone().on_hover_text(
+            "Cracks, pores and epoxy: left out of the measured area, with a rim around them",
+        );
+        ui.horizontal(|ui| {
+            let label = match s.voids {
+                VoidDetection::Off => "none".to_string(),
+                VoidDetection::AtOrBelow(g) => format!("at or below {g}"),
+                _ => "found automatically".to_string(),
+            };
+            egui::ComboBox::from_id_salt(("voids", at.micrograph))
+                .selected_text(label)
+                .show_ui(ui, |ui| {
+                    if ui
+                        .selectable_label(matches!(s.voids, VoidDetection::Off), "none")
+                        .clicked()
+                    {
+                        actions.push(Action::Edit(Command::SetVoids {
+                            at,
+                            voids: VoidDetection::Off,
+                        }));
+                    }
+                    if ui
+                        .selectable_label(
+                            matches!(s.voids, VoidDetection::Auto),
+                            "found automatically",
+                        )
+                        .on_hover_text("Multi-level Otsu with one class more than the phases; the darkest is voids when the histogram has a real valley at its level (common practice)")
+                        .clicked()
+                    {
+                        actions.push(Action::Edit(Command::SetVoids {
+                            at,
+                            voids: VoidDetection::Auto,
+                        }));
+                    }
+                    if ui
+                        .selectable_label(
+                            matches!(s.voids, VoidDetection::AtOrBelow(_)),
+                            "at or below a grey level",
+                        )
+                        .clicked()
+                    {
+                        let level = seg.void_level.unwrap_or(seg.histogram.max_value() / 20);
+                        actions.push(Action::Edit(Command::SetVoids {
+                            at,
+                            voids: VoidDetection::AtOrBelow(level),
+                        }));
+                    }
+                })
+                .response
+                .labelled_by(l.id);
+            if let VoidDetection::AtOrBelow(g) = s.voids {
+                let mut level = self.void_level_text.unwrap_or(g);
+                let r = ui.add(
+                    egui::DragValue::new(&mut level).range(0..=seg.histogram.max_value()),
+                );
+                if r.changed() {
+                    self.void_level_text = Some(level);
+                }
+                if (r.drag_stopped() || r.lost_focus() || (r.changed() && !r.dragged()))
+                    && let Some(v) = self.void_level_text.take()
+                    && v != g
+                {
+                    actions.push(Action::Edit(Command::SetVoids {
+                        at,
+                        voids: VoidDetection::AtOrBelow(v),
+                    }));
+                }
+            }
+        });
+        ui.end_row();
+
+        let l = ui.label("Void rim");
+        l.clone()
+            .on_hover_text("Pixels left out around cracks and pores, as wide as the edge blur");
+        let mut rim = self.rim_text.unwrap_or(s.rim_px);
+        let r = ui
+            .add(egui::DragValue::new(&mut rim).range(0..=20).suffix(" px"))
+            .labelled_by(l.id);
+        if r.changed() {
+            self.rim_text = Some(rim);
+        }
+        if (r.drag_stopped() || r.lost_focus() || (r.changed() && !r.dragged()))
+            && let Some(v) = self.rim_text.take()
+            && v != s.rim_px
+        {
+            actions.push(Action::Edit(Command::SetVoidRim { at, rim_px: v }));
+        }
+        ui.end_row();
+
+        let l = ui.label("Clean-up");
+        l.clone().on_hover_text(
+            "Connected specks of a phase smaller than this many pixels merge into the phase around them (0: off)",
+        );
+        let mut px = self.min_feature_text.unwrap_or(s.min_feature_px);
+        let r = ui
+            .add(
+                egui::DragValue::new(&mut px)
+                    .range(0..=10_000)
+                    .prefix("below ")
+                    .suffix(" px"),
+            )
+            .labelled_by(l.id);
+        if r.changed() {
+            self.min_feature_text = Some(px);
+        }
+        if (r.drag_stopped() || r.lost_focus() || (r.changed() && !r.dragged()))
+            && let Some(v) = self.min_feature_text.take()
+            && v != s.min_feature_px
+        {
+            actions.push(Action::Edit(Command::SetMinFeature {
+                at,
+                min_feature_px: v,
+            }));
+        }
+        ui.end_row();
+    }
+
+    /// Which phase each grey class is, with the mean-atomic-number hint.
+    #[allow(clippy::too_many_arguments)]
+    fn assignment_ui(
+        &mut self,
+        ui: &mut Ui,
+        view: &View<'_>,
+        at: MicrographRef,
+        spec: &MicrographSpec,
+        grain: &Grain,
+        seg: &Segmentation,
+        actions: &mut Vec<Action>,
+    ) {
+        ui.add_space(6.0);
+        ui.label(egui::RichText::new("Which phase is each class").strong())
+            .on_hover_text("Classes are numbered dark to bright");
+        ui.horizontal_wrapped(|ui| {
+            for (class, current) in spec.class_phases.iter().enumerate() {
+                let l = ui.colored_label(class_colour(class), format!("■ class {}", class + 1));
+                egui::ComboBox::from_id_salt(("class-phase", at.micrograph, class))
+                    .selected_text(current)
+                    .show_ui(ui, |ui| {
+                        for p in &grain.phases {
+                            if ui.selectable_label(*current == p.label, &p.label).clicked()
+                                && *current != p.label
+                            {
+                                let mut phases = spec.class_phases.clone();
+                                phases[class] = p.label.clone();
+                                actions.push(Action::Edit(Command::SetClassPhases { at, phases }));
+                            }
+                        }
+                    })
+                    .response
+                    .labelled_by(l.id);
+            }
+        });
+        // Mean atomic number of each phase from its spots in use, and the order it implies.
+        let zs: Vec<Option<f64>> = grain
+            .phases
+            .iter()
+            .map(|p| {
+                let rows = super::analyses::spot_rows(view, at.grain, &p.label);
+                let used: Vec<_> = rows.iter().filter(|r| r.used).collect();
+                if used.is_empty() {
+                    return None;
+                }
+                let mut mean = mineral::Analysis::default();
+                for r in &used {
+                    for (o, wt) in &r.analysis.oxides_wt {
+                        *mean.oxides_wt.entry(*o).or_default() += wt / used.len() as f64;
+                    }
+                }
+                mean.mean_atomic_number()
+            })
+            .collect();
+        ui.horizontal_wrapped(|ui| {
+            for (p, z) in grain.phases.iter().zip(&zs) {
+                match z {
+                    Some(z) => ui.weak(format!("{}: mean Z {z:.2}", p.label)),
+                    None => ui.weak(format!("{}: no spots for a mean Z", p.label)),
+                };
+            }
+        });
+        let phases: Option<Vec<PhaseZ>> = grain
+            .phases
+            .iter()
+            .zip(&zs)
+            .map(|(p, z)| {
+                z.map(|mean_z| PhaseZ {
+                    name: p.label.clone(),
+                    mean_z,
+                })
+            })
+            .collect();
+        let grey: Vec<f64> = seg.phases.iter().map(|p| p.mean_gray).collect();
+        let hint = phases
+            .ok_or_else(|| "a phase has no spot analyses in use".to_string())
+            .and_then(|phases| {
+                bse_order_hint(&grey, &phases).map_err(|_| {
+                    format!(
+                        "the hint pairs one class with each phase: set the number of phases to {}",
+                        grain.phases.len()
+                    )
+                })
+            });
+        match hint {
+            Ok(hint) => {
+                let differs = hint.class_to_phase != spec.class_phases;
+                ui.horizontal_wrapped(|ui| {
+                    let b = ui
+                        .add_enabled(differs, egui::Button::new("Order by mean atomic number"))
+                        .on_hover_text(
+                            "In a backscattered-electron image a phase of higher mean atomic number is brighter (Goldstein et al. 2003, §3.4.2): the darkest class goes to the phase of lowest mean Z",
+                        );
+                    if b.clicked() {
+                        actions.push(Action::Edit(Command::SetClassPhases {
+                            at,
+                            phases: hint.class_to_phase.clone(),
+                        }));
+                    }
+                    if differs {
+                        ui.colored_label(
+                            ui.visuals().warn_fg_color,
+                            format!("mean Z suggests {}", hint.class_to_phase.join(", ")),
+                        );
+                    } else {
+                        ui.weak("the assignment follows mean Z");
+                    }
+                });
+                for w in &hint.warnings {
+                    ui.colored_label(ui.visuals().warn_fg_color, format!("⚠ {w}"));
+                }
+            }
+            Err(why) => {
+                ui.weak(format!("No mean-Z hint: {why}."));
+            }
+        }
+    }
+
+    /// Hand tools: polygon and brush edits over the classification, with their list.
+    #[allow(clippy::too_many_arguments)]
+    fn hand_ui(
+        &mut self,
+        ui: &mut Ui,
+        view: &View<'_>,
+        at: MicrographRef,
+        spec: &MicrographSpec,
+        grain: &Grain,
+        image: &mut ImageStage,
+        actions: &mut Vec<Action>,
+    ) {
+        ui.label(egui::RichText::new("By hand").strong()).on_hover_text(
+            "Where contrast fails, trace lamellae yourself: the pixels under a shape become the chosen phase (or, erasing, go back to the automatic classification). Edits are kept in the project, counted in the fractions, and undone with Ctrl+Z",
+        );
+        ui.horizontal_wrapped(|ui| {
+            for (tool, label, tip) in [
+                (Tool::Pan, "Pan", "Drag to move the image"),
+                (
+                    Tool::HandPolygon,
+                    "Polygon",
+                    "Click the corners; click the first corner, double-click or press Enter to close",
+                ),
+                (
+                    Tool::Brush,
+                    "Brush",
+                    "Drag to paint (right-drag pans)",
+                ),
+            ] {
+                if ui
+                    .selectable_label(image.tool == tool, label)
+                    .on_hover_text(tip)
+                    .clicked()
+                {
+                    image.set_tool(tool);
+                }
+            }
+            if image.tool == Tool::Brush {
+                ui.add(
+                    egui::DragValue::new(&mut image.brush_radius_px)
+                        .range(0.5..=200.0)
+                        .speed(0.2)
+                        .prefix("radius ")
+                        .suffix(" px"),
+                );
+            }
+        });
+        ui.horizontal_wrapped(|ui| {
+            ui.label("gives pixels to");
+            let valid = image
+                .hand_phase
+                .as_ref()
+                .is_none_or(|p| spec.class_phases.contains(p));
+            if !valid {
+                image.hand_phase = None;
+            }
+            if image.hand_phase.is_none() && !self.hand_phase_chosen(image) {
+                image.hand_phase = spec.class_phases.first().cloned();
+            }
+            for p in &grain.phases {
+                let assigned = spec.class_phases.contains(&p.label);
+                let r = ui
+                    .add_enabled(
+                        assigned,
+                        egui::Button::selectable(
+                            image.hand_phase.as_deref() == Some(p.label.as_str()),
+                            egui::RichText::new(format!("■ {}", p.label))
+                                .color(super::image::phase_colour(spec, &p.label)),
+                        ),
+                    )
+                    .on_disabled_hover_text("No grey class is this phase: assign one first");
+                if r.clicked() {
+                    image.hand_phase = Some(p.label.clone());
+                }
+            }
+            if ui
+                .selectable_label(image.hand_phase.is_none(), "erase")
+                .on_hover_text("Pixels under the shape go back to the automatic classification")
+                .clicked()
+            {
+                image.hand_phase = None;
+            }
+        });
+        if let Some(c) = view.classes {
+            if let Some(h) = &c.hand {
+                ui.weak(format!(
+                    "{} edits cover {} measured px; {} of them changed phase",
+                    spec.hand_edits.len(),
+                    h.edited_pixels,
+                    h.changed_pixels
+                ));
+            }
+            if let Some(e) = &c.hand_error {
+                ui.colored_label(
+                    ui.visuals().error_fg_color,
+                    format!("hand edits not applied: {e}"),
+                );
+            }
+        }
+        if !spec.hand_edits.is_empty() {
+            ui.horizontal(|ui| {
+                ui.checkbox(&mut image.show_edits, "Outline edits");
+                if ui
+                    .small_button("Remove last")
+                    .on_hover_text("Remove the last hand edit (Ctrl+Z undoes any edit)")
+                    .clicked()
+                {
+                    actions.push(Action::Edit(Command::RemoveHandEdit {
+                        at,
+                        index: spec.hand_edits.len() - 1,
+                    }));
+                }
+            });
+            egui::CollapsingHeader::new(format!("{} hand edits", spec.hand_edits.len()))
+                .id_salt(("hand-edits", at.micrograph))
+                .show(ui, |ui| {
+                    for (i, e) in spec.hand_edits.iter().enumerate() {
+                        ui.horizontal(|ui| {
+                            let shape = match &e.shape {
+                                project::EditShape::Polygon { vertices } => {
+                                    format!("polygon, {} corners", vertices.len())
+                                }
+                                project::EditShape::Stroke { points, radius_px } => {
+                                    format!(
+                                        "stroke, {} points, radius {radius_px:.1} px",
+                                        points.len()
+                                    )
+                                }
+                            };
+                            ui.label(format!(
+                                "{}. {shape} → {}",
+                                i + 1,
+                                e.phase.as_deref().unwrap_or("erase")
+                            ));
+                            if ui
+                                .small_button("✖")
+                                .on_hover_text("Remove this edit")
+                                .clicked()
+                            {
+                                actions
+                                    .push(Action::Edit(Command::RemoveHandEdit { at, index: i }));
+                            }
+                        });
+                    }
+                });
+        }
+    }
+
+    fn hand_phase_chosen(&self, image: &ImageStage) -> bool {
+        matches!(image.tool, Tool::HandPolygon | Tool::Brush)
+    }
+
+    /// Point count: the grid, the key tool, and the estimate with its interval beside the
+    /// image-analysis fractions.
+    #[allow(clippy::too_many_arguments)]
+    fn points_ui(
+        &mut self,
+        ui: &mut Ui,
+        view: &View<'_>,
+        at: MicrographRef,
+        spec: &MicrographSpec,
+        grain: &Grain,
+        image: &mut ImageStage,
+        actions: &mut Vec<Action>,
+    ) {
+        ui.label(egui::RichText::new("Point count").strong()).on_hover_text(
+            "The classical estimate: lay points over the region and say which phase lies under each. The fraction of points estimates the volume fraction (Delesse principle; Chayes 1956); its 95 % interval is Wilson's score interval for a binomial proportion (Wilson 1927)",
+        );
+        ui.horizontal_wrapped(|ui| {
+            ui.add(
+                egui::DragValue::new(&mut self.grid_spacing_px)
+                    .range(2.0..=2000.0)
+                    .prefix("every ")
+                    .suffix(" px"),
+            );
+            if ui
+                .button("Regular grid")
+                .on_hover_text("A square grid of points at this spacing over the region")
+                .clicked()
+            {
+                actions.push(Action::Edit(Command::SetPointGrid {
+                    at,
+                    grid: Some(PointGrid::Regular {
+                        spacing_px: self.grid_spacing_px,
+                    }),
+                }));
+            }
+            ui.separator();
+            ui.add(
+                egui::DragValue::new(&mut self.random_points)
+                    .range(1..=project::hand::MAX_POINTS)
+                    .suffix(" points"),
+            );
+            ui.add(egui::DragValue::new(&mut self.random_seed).prefix("seed "));
+            if ui
+                .button("Random points")
+                .on_hover_text(
+                    "Points drawn uniformly over the region; the same seed gives the same points",
+                )
+                .clicked()
+            {
+                actions.push(Action::Edit(Command::SetPointGrid {
+                    at,
+                    grid: Some(PointGrid::Random {
+                        points: self.random_points,
+                        seed: self.random_seed,
+                    }),
+                }));
+            }
+        });
+        let Some(count) = &spec.point_count else {
+            ui.weak("No point count on this micrograph.");
+            return;
+        };
+        let (w, h) = view
+            .image
+            .map_or((0, 0), |i| (i.plane.width, i.plane.height));
+        let points = match image.grid_points(spec, w, h) {
+            Some(Ok(p)) => p.len(),
+            Some(Err(e)) => {
+                ui.colored_label(ui.visuals().error_fg_color, e.clone());
+                return;
+            }
+            None => 0,
+        };
+        ui.horizontal_wrapped(|ui| {
+            let counting = image.tool == Tool::Points;
+            if ui
+                .selectable_label(counting, "Count points")
+                .on_hover_text(
+                    "Keys 1–9 give the point under the cursor, or the ringed next point, to a phase; 0 leaves it uncounted; Backspace clears it",
+                )
+                .clicked()
+            {
+                image.set_tool(if counting { Tool::Pan } else { Tool::Points });
+            }
+            for (k, p) in grain.phases.iter().enumerate().take(9) {
+                ui.colored_label(
+                    super::image::phase_colour(spec, &p.label),
+                    format!("{} = {}", k + 1, p.label),
+                );
+            }
+            ui.weak("0 = not counted");
+            if ui
+                .small_button("Remove")
+                .on_hover_text("Remove the point count and its marks (Ctrl+Z brings it back)")
+                .clicked()
+            {
+                actions.push(Action::Edit(Command::SetPointGrid { at, grid: None }));
+            }
+        });
+        let labels: Vec<String> = grain.phases.iter().map(|p| p.label.clone()).collect();
+        let estimate = project::hand::point_count_estimate(count, &labels, points);
+        ui.weak(format!(
+            "{} of {} points marked, {} counted",
+            estimate.marked, estimate.grid_points, estimate.counted
+        ));
+        let image_fractions = view.classes.map(|c| {
+            let levels = self.levels_shown(spec, &c.segmentation);
+            phase_fractions(grain, spec, &c.fractions_at(&levels))
+        });
+        egui::Grid::new(("point-count", at.micrograph))
+            .striped(true)
+            .num_columns(4)
+            .show(ui, |ui| {
+                ui.strong("phase");
+                ui.strong("points");
+                ui.strong("point count (Wilson 95 %)");
+                ui.strong("image analysis");
+                ui.end_row();
+                for (i, p) in estimate.phases.iter().enumerate() {
+                    ui.colored_label(super::image::phase_colour(spec, &p.label), &p.label);
+                    ui.label(p.points.to_string());
+                    match (p.fraction, p.wilson95) {
+                        (Some(f), Some((lo, hi))) => ui.label(format!("{f:.3} ({lo:.3}–{hi:.3})")),
+                        _ => ui.weak("—"),
+                    };
+                    match image_fractions.as_ref().and_then(|f| f.get(i)) {
+                        Some(f) => ui.label(format!("{f:.3}")),
+                        None => ui.weak("—"),
+                    };
+                    ui.end_row();
+                }
+            });
     }
 
     fn histogram_ui(
