@@ -102,3 +102,84 @@ fn a_pair_thermometer_without_opx_is_refused() {
         .expect("cpx alone");
     assert!(t.temperature_c.is_finite() && t.see_c == 58.0);
 }
+
+#[test]
+fn standard_errors_follow_the_published_values_and_mg_number() {
+    // Source: standard errors of estimate as tested by Putirka (2008) and documented in the
+    // docstrings of Thermobar 1.0.75 (T_Put2008_eq36: ±45 °C for cpx Mg# > 0.75, ±56 °C all
+    // data; T_Put2008_eq37: ±38 / ±60; T_Brey1990: ±50 / ±70; T_Put2008_eq32d: ±58 anhydrous).
+    // Exact: these are tabulated constants.
+    use PyroxeneThermometer as T;
+    for (t, high, all) in [
+        (T::Putirka2008Eq36, 45.0, 56.0),
+        (T::Putirka2008Eq37, 38.0, 60.0),
+        (T::BreyKohler1990, 50.0, 70.0),
+        (T::Putirka2008Eq32d, 58.0, 58.0),
+    ] {
+        assert_eq!(t.see_c(), all, "{}", t.id());
+        assert_eq!(t.see_for_mg_number(0.80), high, "{}", t.id());
+        assert_eq!(t.see_for_mg_number(0.60), all, "{}", t.id());
+    }
+    // the result carries the error for its clinopyroxene: Mg# 0.9/(0.9+0.3) = 0.75 → subset value
+    let cpx = solvus::pyroxene::PyroxeneCations {
+        si: 2.0,
+        mg: 0.9,
+        fe_total: 0.3,
+        ca: 0.8,
+        ..Default::default()
+    };
+    let opx = solvus::pyroxene::PyroxeneCations {
+        si: 2.0,
+        mg: 1.6,
+        fe_total: 0.35,
+        ca: 0.04,
+        ..Default::default()
+    };
+    let t = pyroxene_temperature(T::BreyKohler1990, &cpx, Some(&opx), 15.0).expect("temperature");
+    assert_eq!(t.see_c, 50.0);
+}
+
+#[test]
+fn a_result_far_outside_the_calibration_is_flagged() {
+    // Source: the Brey & Köhler (1990) experiments span about 900-1400 °C and 10-60 kbar
+    // (from memory, as the calibration table says). At 2 kbar every result is outside the
+    // pressure range, so the warning must name the range; at 30 kbar a result inside both
+    // ranges carries no calibration warning.
+    let cpx = solvus::pyroxene::PyroxeneCations {
+        si: 2.0,
+        mg: 0.9,
+        fe_total: 0.3,
+        ca: 0.8,
+        ..Default::default()
+    };
+    let opx = solvus::pyroxene::PyroxeneCations {
+        si: 2.0,
+        mg: 1.6,
+        fe_total: 0.35,
+        ca: 0.04,
+        ..Default::default()
+    };
+    let low = pyroxene_temperature(PyroxeneThermometer::BreyKohler1990, &cpx, Some(&opx), 2.0)
+        .expect("temperature");
+    assert!(
+        low.warnings
+            .iter()
+            .any(|w| w.contains("outside the approximate calibration") && w.contains("10-60 kbar")),
+        "{:?}",
+        low.warnings
+    );
+    let mid = pyroxene_temperature(PyroxeneThermometer::BreyKohler1990, &cpx, Some(&opx), 30.0)
+        .expect("temperature");
+    if (900.0..=1400.0).contains(&mid.temperature_c) {
+        assert!(
+            !mid.warnings.iter().any(|w| w.contains("calibration")),
+            "{:?}",
+            mid.warnings
+        );
+    } else {
+        panic!(
+            "test composition should fall inside 900-1400 °C at 30 kbar: {}",
+            mid.temperature_c
+        );
+    }
+}

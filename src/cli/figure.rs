@@ -12,7 +12,7 @@ use serde_json::json;
 /// Arguments of `consolute figure`.
 #[derive(Debug, Args)]
 pub struct FigureArgs {
-    /// Figure kind: solvus, ternary, histogram or micrograph.
+    /// Figure kind: solvus, ternary, quadrilateral (pyroxene), histogram or micrograph.
     pub kind: String,
     /// The project file (JSON).
     pub project: PathBuf,

@@ -135,8 +135,19 @@ fn caption(kind: FigureKind, g: &GrainResult, project: &Project) -> String {
             s.pressure_kbar
         ),
         FigureKind::Histogram => format!(
-            "{id}: minimum crystallisation temperature over the Monte Carlo draws ({model}, {} kbar); median and 95 % interval marked; bin width by the Freedman–Diaconis rule.",
+            "{id}: minimum crystallisation temperature over the Monte Carlo draws ({}, {} kbar); median and 95 % interval marked; bin width by the Freedman–Diaconis rule.",
+            if g.system == reintegration::MineralSystem::Pyroxene {
+                format!(
+                    "{} on the reintegrated clinopyroxene",
+                    s.pyroxene_bulk_thermometer
+                )
+            } else {
+                model
+            },
             s.pressure_kbar
+        ),
+        FigureKind::Quadrilateral => format!(
+            "{id}: pyroxene quadrilateral (Wo–En–Fs as Ca, Mg and ΣFe proportions) with the spot analyses (small symbols), the phase means joined by the lamella tie-line, Monte Carlo draws of the reintegrated bulk (grey) and its median (diamond) labelled with its minimum crystallisation temperature; name fields after Morimoto et al. (1988)."
         ),
         FigureKind::Micrograph => format!(
             "{id}: micrograph with the phase classification overlaid, voids and rims excluded from measurement, region of interest outlined (exclusions dashed); area fractions in the legend."
@@ -227,8 +238,50 @@ fn methods(project: &Project, run: &RunResult) -> String {
     )
 }
 
+fn has_pyroxene(run: &RunResult) -> bool {
+    run.grains
+        .iter()
+        .any(|g| g.system == reintegration::MineralSystem::Pyroxene)
+}
+
+/// The thermometers named in the settings, for the methods and references.
+fn pyroxene_thermometers(project: &Project) -> Vec<solvus::pyroxene::PyroxeneThermometer> {
+    let s = &project.settings;
+    [&s.pyroxene_pair_thermometer, &s.pyroxene_bulk_thermometer]
+        .into_iter()
+        .filter_map(|id| solvus::pyroxene::PyroxeneThermometer::from_id(id))
+        .collect()
+}
+
+/// The methods paragraph for pyroxene grains, when the run has any.
+fn pyroxene_methods(project: &Project, run: &RunResult) -> Option<String> {
+    if !has_pyroxene(run) {
+        return None;
+    }
+    let s = &project.settings;
+    let see = |id: &str| {
+        solvus::pyroxene::PyroxeneThermometer::from_id(id).map_or(String::new(), |t| {
+            format!(" (published standard error ±{:.0} °C)", t.see_c())
+        })
+    };
+    Some(format!(
+        "Pyroxene analyses were recalculated to formulae on 6 oxygens with Fe3+ from charge balance \
+         (Droop 1987) and expressed as Di, Hd, En and Fs (Wo, En and Fs as Ca, Mg and ΣFe \
+         proportions). Pyroxene bulk compositions were reintegrated by the same molar and mass routes \
+         with end-member volumes of Holland & Powell (2011); the routes are compared in Wo, En and Fs. \
+         The lamella pair gives an exsolution temperature from the two-pyroxene thermometer {pair}{pair_see}; \
+         the reintegrated bulk gives a minimum crystallisation temperature from the clinopyroxene-only \
+         thermometer {bulk}{bulk_see}, evaluated on every Monte Carlo draw, at {p} kbar.",
+        pair = s.pyroxene_pair_thermometer,
+        pair_see = see(&s.pyroxene_pair_thermometer),
+        bulk = s.pyroxene_bulk_thermometer,
+        bulk_see = see(&s.pyroxene_bulk_thermometer),
+        p = s.pressure_kbar,
+    ))
+}
+
 /// The references the report cites.
-fn references(project: &Project) -> Vec<String> {
+fn references(project: &Project, run: &RunResult) -> Vec<String> {
     let mut refs: Vec<String> = Vec::new();
     if let Ok(m) = SolutionModel::builtin(&project.settings.feldspar_model) {
         refs.push(m.citation.clone());
@@ -250,11 +303,25 @@ fn references(project: &Project) -> Vec<String> {
         ]
         .map(String::from),
     );
+    if has_pyroxene(run) {
+        for t in pyroxene_thermometers(project) {
+            if !refs.iter().any(|r| r == t.citation()) {
+                refs.push(t.citation().into());
+            }
+        }
+        refs.extend(
+            [
+                "Droop, G.T.R. (1987) A general equation for estimating Fe3+ concentrations in ferromagnesian silicates and oxides from microprobe analyses, using stoichiometric criteria. Mineralogical Magazine 51, 431-435",
+                "Morimoto, N. et al. (1988) Nomenclature of pyroxenes. Mineralogical Magazine 52, 535-550",
+            ]
+            .map(String::from),
+        );
+    }
     refs
 }
 
-fn cautions() -> Vec<String> {
-    [
+fn cautions(run: &RunResult) -> Vec<String> {
+    let mut out: Vec<String> = [
         "A solvus temperature from a reintegrated bulk is a minimum for crystallisation, not the crystallisation temperature.",
         "The solvus used is the strain-free one. Lamellae that exsolved coherently follow a coherent solvus that lies about 100 °C lower; set against the strain-free solvus, a coherent pair gives a different, not a better, temperature.",
         "Later re-equilibration (coarsening, deuteric or hydrothermal alteration, loss of lamellae to grain boundaries) moves lamella compositions and modal fractions; the lamella pair records when exchange stopped, and a bulk rebuilt from an altered grain is not the primary crystal.",
@@ -262,7 +329,11 @@ fn cautions() -> Vec<String> {
         "Area fractions estimate volume fractions only for a random section through a representative grain; lamellae thinner than the beam or the image resolution blur and bias the result.",
     ]
     .map(String::from)
-    .to_vec()
+    .to_vec();
+    if has_pyroxene(run) {
+        out.push("Pyroxene thermometers are empirical fits: a temperature outside a thermometer's calibration, or from a pair not in Fe-Mg exchange equilibrium, is flagged but still shown; the clinopyroxene-only thermometer is calibrated on anhydrous experiments and overestimates hydrous ones (Putirka 2008). Pigeonite that has inverted to orthopyroxene keeps its bulk composition but not its structure.".into());
+    }
+    out
 }
 
 /// The report as blocks, figures included from `figures`.
@@ -286,6 +357,9 @@ pub fn report_blocks(project: &Project, run: &RunResult, figures: &[GrainFigure]
     )));
     b.push(Block::Heading(2, "Methods".into()));
     b.push(Block::Para(methods(project, run)));
+    if let Some(text) = pyroxene_methods(project, run) {
+        b.push(Block::Para(text));
+    }
     b.push(Block::Heading(2, "Results".into()));
     let mut rows = Vec::new();
     for g in &run.grains {
@@ -298,35 +372,42 @@ pub fn report_blocks(project: &Project, run: &RunResult, figures: &[GrainFigure]
         let tmin = g.min_temperature().map_or("–".into(), |t| {
             format!("{:.0} ({:.0}–{:.0})", t.median, t.p2_5, t.p97_5)
         });
-        let pair = g.pair.as_ref().map_or("–".into(), |p| {
-            format!(
+        let pair = match (&g.pair, &g.pyroxene_pair) {
+            (Some(p), _) => format!(
                 "{} / {} / {}; adjusted {}",
                 t0(p.temperatures_c[0]),
                 t0(p.temperatures_c[1]),
                 t0(p.temperatures_c[2]),
                 t0(p.adjusted_c)
-            )
-        });
+            ),
+            (None, Some(t)) => format!(
+                "{:.0} ± {:.0} ({})",
+                t.temperature_c,
+                t.see_c,
+                t.thermometer.id()
+            ),
+            (None, None) => "–".into(),
+        };
         rows.push(vec![
             g.sample.clone(),
             g.grain.clone(),
             format!("{:?}", g.system).to_lowercase(),
             bulk.join(", "),
             tmin,
-            if g.system == reintegration::MineralSystem::Feldspar {
+            if g.monte_carlo.temperature_draws.is_empty() {
+                "–".into()
+            } else {
                 format!(
                     "{} of {}",
                     g.monte_carlo.outcomes.found,
                     g.monte_carlo.temperature_draws.len()
                 )
-            } else {
-                "–".into()
             },
             pair,
         ]);
     }
     b.push(Block::Para(
-        "Bulk compositions: median and 95 % interval of the Monte Carlo draws (molar route). Minimum crystallisation temperature, °C: median and 95 % interval over the draws that gave one. Lamella pair, °C: T_Ab / T_Or / T_An and the adjusted single temperature.".into(),
+        "Bulk compositions: median and 95 % interval of the Monte Carlo draws (molar route). Minimum crystallisation temperature, °C: median and 95 % interval over the draws that gave one. Lamella pair, °C: feldspar T_Ab / T_Or / T_An and the adjusted single temperature; pyroxene: the two-pyroxene temperature ± the thermometer's published standard error of estimate.".into(),
     ));
     b.push(Block::Table(
         [
@@ -467,9 +548,9 @@ pub fn report_blocks(project: &Project, run: &RunResult, figures: &[GrainFigure]
         b.push(Block::List(not_drawn));
     }
     b.push(Block::Heading(2, "Interpreting the temperatures".into()));
-    b.push(Block::List(cautions()));
+    b.push(Block::List(cautions(run)));
     b.push(Block::Heading(2, "References".into()));
-    b.push(Block::List(references(project)));
+    b.push(Block::List(references(project, run)));
     b
 }
 

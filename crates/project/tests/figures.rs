@@ -6,8 +6,8 @@ use std::path::{Path, PathBuf};
 use std::sync::OnceLock;
 
 use project::figure::{
-    FigureKind, FigureSize, Frame, GrainFigureOptions, Item, MarkerShape, grain_figure, render,
-    ternary_xy,
+    FigureKind, FigureSize, Frame, GrainFigureOptions, Item, MarkerShape, grain_figure,
+    quadrilateral_xy, render, ternary_xy,
 };
 use project::{GrainResult, Project, Quiet, RunResult, load_project, run_project};
 use reintegration::{JobControl, MineralSystem};
@@ -35,11 +35,101 @@ fn feldspar_grain(run: &RunResult) -> &GrainResult {
         .expect("the demo has a feldspar grain with a lamella pair")
 }
 
+fn pyroxene_grain(run: &RunResult) -> &GrainResult {
+    run.grains
+        .iter()
+        .find(|g| g.system == MineralSystem::Pyroxene && g.phases.len() == 2)
+        .expect("the demo has a two-phase pyroxene grain")
+}
+
+#[test]
+fn quadrilateral_draws_spots_means_tie_line_and_bulk() {
+    let (project, run) = demo();
+    let g = pyroxene_grain(run);
+    let fig = grain_figure(
+        FigureKind::Quadrilateral,
+        project,
+        &demo_file(),
+        g,
+        &GrainFigureOptions::default(),
+    )
+    .unwrap();
+    // Source: Wo, En, Fs as Ca, Mg and ΣFe proportions of Di + Hd + En + Fs
+    // (Ca = Di + Hd, Mg = Di + 2 En, Fe = Hd + 2 Fs per M2M1Si2O6); the bulk diamond sits at the
+    // plane point of the Monte Carlo median, the phase means at theirs. Tolerance: rounding.
+    let to_xy = |f: &[f64]| {
+        let c = MineralSystem::Pyroxene.comparison_coordinates(f);
+        quadrilateral_xy(c[0], c[1], c[2])
+    };
+    let markers = |shape: MarkerShape| -> Vec<[f64; 2]> {
+        fig.items
+            .iter()
+            .filter_map(|i| match i {
+                Item::Markers(m) if m.shape == shape => Some(m.points.clone()),
+                _ => None,
+            })
+            .flatten()
+            .collect()
+    };
+    let median: Vec<f64> = g.monte_carlo.bulk.iter().map(|s| s.median).collect();
+    let bulk = markers(MarkerShape::Diamond);
+    assert_eq!(bulk.len(), 1);
+    let want = to_xy(&median);
+    assert!(
+        (bulk[0][0] - want[0]).abs() < 1e-12 && (bulk[0][1] - want[1]).abs() < 1e-12,
+        "{bulk:?} vs {want:?}"
+    );
+    // the two phase means are the ends of the tie-line
+    let means = [to_xy(&g.phases[0].mean), to_xy(&g.phases[1].mean)];
+    let tie = fig.items.iter().find_map(|i| match i {
+        Item::Line(l) if l.points.len() == 2 && l.points == means.to_vec() => Some(l),
+        _ => None,
+    });
+    assert!(tie.is_some(), "tie-line between {means:?}");
+    // every plotted composition lies in the quadrilateral: 0 <= y <= √3/4 and inside the
+    // slanted sides (x >= y/√3 on the En side, x <= 1 - y/√3 on the Fs side)
+    let h = 3f64.sqrt() / 2.0;
+    for shape in [MarkerShape::Circle, MarkerShape::Plus, MarkerShape::Diamond] {
+        for p in markers(shape) {
+            assert!(p[1] >= -1e-12 && p[1] <= h / 2.0 + 1e-12, "{p:?}");
+            assert!(p[0] >= p[1] / 3f64.sqrt() - 1e-12, "{p:?}");
+            assert!(p[0] <= 1.0 - p[1] / 3f64.sqrt() + 1e-12, "{p:?}");
+        }
+    }
+    // the lamella pair's two-pyroxene temperature is in the legend
+    if let Some(t) = &g.pyroxene_pair {
+        let text = format!("{:.0} ± {:.0} °C", t.temperature_c, t.see_c);
+        assert!(fig.legend.iter().any(|e| e.label.contains(&text)), "{text}");
+    }
+    // a feldspar grain is refused with a reason
+    let e = grain_figure(
+        FigureKind::Quadrilateral,
+        project,
+        &demo_file(),
+        feldspar_grain(run),
+        &GrainFigureOptions::default(),
+    )
+    .unwrap_err();
+    assert!(e.to_string().contains("pyroxene grains"), "{e}");
+}
+
 #[test]
 fn every_kind_renders_to_svg_png_and_pdf() {
     let (project, run) = demo();
-    let g = feldspar_grain(run);
+    let jobs: Vec<(&GrainResult, FigureKind)> = [feldspar_grain(run), pyroxene_grain(run)]
+        .into_iter()
+        .flat_map(|g| {
+            FigureKind::ALL
+                .into_iter()
+                .filter(|k| k.applies_to(g))
+                .map(move |k| (g, k))
+        })
+        .collect();
+    // every kind is drawn for one of the two grains
     for kind in FigureKind::ALL {
+        assert!(jobs.iter().any(|(_, k)| *k == kind), "{}", kind.name());
+    }
+    for (g, kind) in jobs {
         let options = GrainFigureOptions {
             size: FigureSize::WidthMm(100.0),
             ..GrainFigureOptions::default()

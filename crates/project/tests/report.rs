@@ -50,7 +50,44 @@ fn report_has_methods_results_cautions_and_figures() {
         .filter(|g| g.system == reintegration::MineralSystem::Feldspar)
         .count();
     let micrographs: usize = run.grains.iter().map(|g| g.micrographs.len()).sum();
-    let figures = 3 * feldspar + micrographs;
+    // feldspar: solvus, ternary, histogram; pyroxene: quadrilateral, and a histogram when its
+    // draws gave temperatures
+    let pyroxene: Vec<_> = run
+        .grains
+        .iter()
+        .filter(|g| g.system == reintegration::MineralSystem::Pyroxene)
+        .collect();
+    let pyroxene_histograms = pyroxene
+        .iter()
+        .filter(|g| g.min_temperature().is_some())
+        .count();
+    assert!(!pyroxene.is_empty(), "the demo has pyroxene grains");
+    let figures = 3 * feldspar + pyroxene.len() + pyroxene_histograms + micrographs;
+    // each figure is linked as SVG image, PNG and PDF
+    assert_eq!(md.matches("_quadrilateral.").count(), 3 * pyroxene.len());
+    // the pyroxene methods, the thermometers' citations and the nomenclature of the fields
+    for needle in [
+        "Droop 1987",
+        "clinopyroxene-only thermometer putirka2008-32d (published standard error ±58 °C)",
+        "Brey G.P. & Köhler T. (1990)",
+        "Putirka K.D. (2008)",
+        "Morimoto, N. et al. (1988)",
+        "overestimates hydrous ones",
+    ] {
+        assert!(md.contains(needle), "report.md lacks '{needle}'");
+    }
+    // a pyroxene grain's pair temperature is in the results with its standard error
+    for g in &pyroxene {
+        if let Some(t) = &g.pyroxene_pair {
+            let text = format!(
+                "{:.0} ± {:.0} ({})",
+                t.temperature_c,
+                t.see_c,
+                t.thermometer.id()
+            );
+            assert!(md.contains(&text), "{text}");
+        }
+    }
     assert_eq!(files.figures.len(), 3 * figures);
     assert_eq!(md.matches("![").count(), figures);
     for f in &files.figures {

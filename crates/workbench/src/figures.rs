@@ -258,6 +258,8 @@ pub struct FigureSet {
     pub ternary: Option<Result<Figure, String>>,
     /// Minimum-temperature distribution.
     pub histogram: Option<Result<Figure, String>>,
+    /// Pyroxene quadrilateral (pyroxene grains).
+    pub quadrilateral: Option<Result<Figure, String>>,
 }
 
 impl FigureSet {
@@ -267,6 +269,7 @@ impl FigureSet {
             FigureKind::Solvus => Some(&self.solvus),
             FigureKind::Ternary => self.ternary.as_ref(),
             FigureKind::Histogram => self.histogram.as_ref(),
+            FigureKind::Quadrilateral => self.quadrilateral.as_ref(),
             _ => None,
         }
     }
@@ -336,8 +339,15 @@ impl FigureJob {
                     key: k,
                     grain: grain_ref,
                     solvus,
-                    histogram: feldspar.map(|g| build(FigureKind::Histogram, g)),
+                    histogram: grain
+                        .as_ref()
+                        .filter(|g| FigureKind::Histogram.applies_to(g))
+                        .map(|g| build(FigureKind::Histogram, g)),
                     ternary: feldspar.map(|g| build(FigureKind::Ternary, g)),
+                    quadrilateral: grain
+                        .as_ref()
+                        .filter(|g| FigureKind::Quadrilateral.applies_to(g))
+                        .map(|g| build(FigureKind::Quadrilateral, g)),
                 };
                 let _ = tx.send(set);
                 ctx.request_repaint();

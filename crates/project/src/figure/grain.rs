@@ -7,9 +7,9 @@ use serde::{Deserialize, Serialize};
 use solvus::{ModelKind, SolutionModel};
 
 use super::{
-    Figure, FigureError, FigureSize, MicrographFigureOptions, SolvusFigureOptions,
-    TernaryFigureOptions, grain_spots, micrograph_figure, min_temperature_figure, solvus_figure,
-    ternary_figure,
+    Figure, FigureError, FigureSize, MicrographFigureOptions, QuadrilateralFigureOptions,
+    SolvusFigureOptions, TernaryFigureOptions, grain_spots, micrograph_figure,
+    min_temperature_figure, quadrilateral_figure, solvus_figure, ternary_figure,
 };
 use crate::document::Project;
 use crate::run::GrainResult;
@@ -26,13 +26,16 @@ pub enum FigureKind {
     Histogram,
     /// Micrograph with phase overlay.
     Micrograph,
+    /// Pyroxene quadrilateral (Wo–En–Fs).
+    Quadrilateral,
 }
 
 impl FigureKind {
     /// All kinds, in report order.
-    pub const ALL: [FigureKind; 4] = [
+    pub const ALL: [FigureKind; 5] = [
         FigureKind::Solvus,
         FigureKind::Ternary,
+        FigureKind::Quadrilateral,
         FigureKind::Histogram,
         FigureKind::Micrograph,
     ];
@@ -44,6 +47,7 @@ impl FigureKind {
             FigureKind::Ternary => "ternary",
             FigureKind::Histogram => "histogram",
             FigureKind::Micrograph => "micrograph",
+            FigureKind::Quadrilateral => "quadrilateral",
         }
     }
 
@@ -52,12 +56,25 @@ impl FigureKind {
         FigureKind::ALL.into_iter().find(|k| k.name() == name)
     }
 
-    /// Whether the kind applies to a grain (the solvus, ternary and histogram figures are for
-    /// feldspar grains).
+    /// Whether the kind applies to a grain: the solvus and ternary figures to feldspar grains,
+    /// the quadrilateral to pyroxene grains, the histogram to grains whose Monte Carlo draws gave
+    /// minimum temperatures, the micrograph to grains with micrographs.
     pub fn applies_to(self, grain: &GrainResult) -> bool {
+        use reintegration::MineralSystem;
         match self {
             FigureKind::Micrograph => !grain.micrographs.is_empty(),
-            _ => grain.system == reintegration::MineralSystem::Feldspar,
+            FigureKind::Solvus | FigureKind::Ternary => grain.system == MineralSystem::Feldspar,
+            FigureKind::Quadrilateral => grain.system == MineralSystem::Pyroxene,
+            FigureKind::Histogram => {
+                grain
+                    .monte_carlo
+                    .temperature_draws
+                    .iter()
+                    .flatten()
+                    .filter(|t| t.is_finite())
+                    .count()
+                    >= 2
+            }
         }
     }
 }
@@ -114,9 +131,16 @@ pub fn grain_figure(
         return Err(FigureError::Grain {
             grain: format!("{}/{}", grain.sample, grain.grain),
             message: format!(
-                "the {} figure is for feldspar grains with results; this grain is {:?}",
+                "the {} figure does not apply to this {:?} grain ({})",
                 kind.name(),
-                grain.system
+                grain.system,
+                match kind {
+                    FigureKind::Solvus | FigureKind::Ternary => "it is for feldspar grains",
+                    FigureKind::Quadrilateral => "it is for pyroxene grains",
+                    FigureKind::Histogram =>
+                        "fewer than two Monte Carlo draws gave a minimum temperature",
+                    FigureKind::Micrograph => "the grain has no micrograph",
+                }
             ),
         });
     }
@@ -161,6 +185,14 @@ pub fn grain_figure(
             )
         }
         FigureKind::Histogram => min_temperature_figure(grain, options.size),
+        FigureKind::Quadrilateral => quadrilateral_figure(
+            grain,
+            &grain_spots(project, project_file, grain)?,
+            &QuadrilateralFigureOptions {
+                size: options.size,
+                ..QuadrilateralFigureOptions::default()
+            },
+        ),
         FigureKind::Micrograph => micrograph_figure(
             project,
             grain,

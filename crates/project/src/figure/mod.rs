@@ -10,7 +10,9 @@
 //! * [`ternary_figure`]: Ab–An–Or diagram with isotherms of a ternary model, lamellae, the
 //!   bulk with its Monte Carlo cloud and the spot analyses;
 //! * [`min_temperature_figure`]: histogram of the minimum temperature over the Monte Carlo draws;
-//! * [`micrograph_figure`]: the micrograph with its phase overlay, region outline, scale bar.
+//! * [`micrograph_figure`]: the micrograph with its phase overlay, region outline, scale bar;
+//! * [`quadrilateral_figure`]: the pyroxene quadrilateral (Wo–En–Fs) with spots, the lamella
+//!   tie-line, the bulk and its Monte Carlo cloud.
 //!
 //! The same [`Figure`] is drawn by the desktop workbench and written to files by
 //! [`render::to_svg`], [`render::to_png`] and [`render::to_pdf`] (one SVG text parsed once by
@@ -42,6 +44,7 @@ use serde::{Deserialize, Serialize};
 mod grain;
 mod histogram;
 mod micrograph;
+mod quadrilateral;
 pub mod render;
 mod solvus_diagram;
 mod ternary_diagram;
@@ -49,6 +52,9 @@ mod ternary_diagram;
 pub use grain::{FigureKind, GrainFigureOptions, grain_figure};
 pub use histogram::{bin_counts, freedman_diaconis_edges, min_temperature_figure};
 pub use micrograph::{MicrographFigureOptions, micrograph_figure, scale_bar_length};
+pub use quadrilateral::{
+    FIELD_WO_LIMITS, QuadrilateralFigureOptions, quadrilateral_figure, quadrilateral_xy,
+};
 pub use solvus_diagram::{SolvusFigureOptions, pair_temperature_c, short_citation, solvus_figure};
 pub use ternary_diagram::{
     SpotPoint, TernaryFigureOptions, grain_spots, ternary_figure, ternary_xy,

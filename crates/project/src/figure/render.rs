@@ -22,7 +22,7 @@ pub const FONT_BYTES: &[u8] = include_bytes!("../../../../assets/fonts/DejaVuSan
 /// Family name of the bundled font.
 pub const FONT_FAMILY: &str = "DejaVu Sans";
 
-const PT_PER_MM: f64 = 72.0 / 25.4;
+pub(crate) const PT_PER_MM: f64 = 72.0 / 25.4;
 /// The placement of the plot area inside the page, in points (y down).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Layout {
@@ -125,6 +125,17 @@ fn legend_metrics(fig: &Figure) -> (f64, f64) {
         .map(|e| text_width(&e.label, f))
         .fold(0.0, f64::max);
     (widest + 20.0, f * 1.5)
+}
+
+/// Height of a legend placed below the plot, mm (zero for other places or no legend): builders
+/// that put the legend below add it to the height of their plot.
+pub fn legend_below_height_mm(fig: &Figure) -> f64 {
+    if fig.legend_place != LegendPlace::Below || fig.legend.is_empty() {
+        return 0.0;
+    }
+    let (_, row_h) = legend_metrics(fig);
+    let (_, rows, _) = legend_columns(fig, fig.width_mm * PT_PER_MM - 12.0);
+    (rows as f64 * row_h + fig.font_size_pt) / PT_PER_MM
 }
 
 /// Where the plot area goes for a figure.

@@ -104,8 +104,30 @@ impl TemperatureStage {
 
     fn figures_ui(&mut self, ui: &mut Ui, view: &View<'_>, actions: &mut Vec<Action>) {
         let result = view.grain.and_then(|g| view.result(g));
+        let pyroxene = result.is_some_and(|r| r.system == reintegration::MineralSystem::Pyroxene);
         let h = (ui.available_height() * 0.6).max(320.0);
         ui.columns(2, |cols| {
+            if pyroxene {
+                // the feldspar solvus says nothing about a pyroxene: its quadrilateral instead,
+                // beside the distribution of its clinopyroxene-only temperatures
+                figure_with_export(
+                    &mut cols[0],
+                    view,
+                    FigureKind::Quadrilateral,
+                    "Pyroxene quadrilateral (Wo–En–Fs)",
+                    h,
+                    actions,
+                );
+                figure_with_export(
+                    &mut cols[1],
+                    view,
+                    FigureKind::Histogram,
+                    "Minimum-temperature draws",
+                    h,
+                    actions,
+                );
+                return;
+            }
             figure_with_export(
                 &mut cols[0],
                 view,
@@ -156,7 +178,14 @@ impl TemperatureStage {
                 o.refused
             ));
             ui.add_space(6.0);
-            ui.label(egui::RichText::new("Lamella pair (two-feldspar thermometry)").strong());
+            ui.label(
+                egui::RichText::new(if pyroxene {
+                    "Lamella pair (two-pyroxene thermometry)"
+                } else {
+                    "Lamella pair (two-feldspar thermometry)"
+                })
+                .strong(),
+            );
             match &r.pair {
                 Some(p) => {
                     egui::Grid::new("pair").striped(true).show(ui, |ui| {
@@ -197,9 +226,11 @@ impl TemperatureStage {
                     }
                 },
             }
-            let ui = &mut cols[1];
-            let h = 260.0;
-            figure_with_export(ui, view, FigureKind::Histogram, "Minimum-temperature draws", h, actions);
+            if !pyroxene {
+                let ui = &mut cols[1];
+                let h = 260.0;
+                figure_with_export(ui, view, FigureKind::Histogram, "Minimum-temperature draws", h, actions);
+            }
         });
     }
 }
