@@ -80,6 +80,14 @@ pub enum Command {
     },
     /// Set the solution model used for feldspar temperatures.
     SetModel(String),
+    /// Set a pyroxene thermometer: the two-pyroxene one for lamella pairs (`pair`), or the
+    /// clinopyroxene-only one for the reintegrated bulk.
+    SetPyroxeneThermometer {
+        /// The pair thermometer (else the bulk one).
+        pair: bool,
+        /// Thermometer id (`bk1990`, `putirka2008-32d`, ...).
+        id: String,
+    },
     /// Set the pressure, kbar.
     SetPressure(f64),
     /// Set the one-sigma uncertainty of the pressure, kbar.
@@ -316,6 +324,14 @@ impl Command {
             },
             Command::SetVoidRim { rim_px, .. } => format!("void rim {rim_px} px"),
             Command::SetModel(m) => format!("model {m}"),
+            Command::SetPyroxeneThermometer { pair, id } => format!(
+                "{} thermometer {id}",
+                if *pair {
+                    "pyroxene pair"
+                } else {
+                    "pyroxene bulk"
+                }
+            ),
             Command::SetPressure(p) => format!("pressure {p} kbar"),
             Command::SetPressureSigma(p) => format!("pressure uncertainty {p} kbar"),
             Command::SetDraws(n) => format!("{n} draws"),
@@ -463,6 +479,27 @@ impl Command {
                     return Err(format!("unknown model '{id}'"));
                 }
                 project.settings.feldspar_model = id;
+            }
+            Command::SetPyroxeneThermometer { pair, id } => {
+                use solvus::pyroxene::PyroxeneThermometer;
+                let Some(t) = PyroxeneThermometer::from_id(&id) else {
+                    return Err(format!("unknown pyroxene thermometer '{id}'"));
+                };
+                if pair && !t.needs_pair() {
+                    return Err(format!(
+                        "{id} takes a clinopyroxene alone; a lamella pair needs a two-pyroxene thermometer"
+                    ));
+                }
+                if !pair && t.needs_pair() {
+                    return Err(format!(
+                        "{id} needs an orthopyroxene; the reintegrated bulk needs a clinopyroxene-only thermometer"
+                    ));
+                }
+                if pair {
+                    project.settings.pyroxene_pair_thermometer = id;
+                } else {
+                    project.settings.pyroxene_bulk_thermometer = id;
+                }
             }
             Command::SetPressure(p) => {
                 if !(0.0..=100.0).contains(&p) {

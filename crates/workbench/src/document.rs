@@ -251,4 +251,40 @@ mod tests {
         assert!(!doc.dirty);
         assert!(doc.undo_label().is_none());
     }
+
+    #[test]
+    fn pyroxene_thermometers_are_set_checked_and_undone() {
+        let mut doc = demo();
+        let before = doc.project.settings.clone();
+        doc.apply(Command::SetPyroxeneThermometer {
+            pair: true,
+            id: "putirka2008-37".into(),
+        })
+        .unwrap();
+        assert_eq!(
+            doc.project.settings.pyroxene_pair_thermometer,
+            "putirka2008-37"
+        );
+        // Putirka (2008) eq 32d takes a clinopyroxene alone: not a pair thermometer; bk1990
+        // needs both pyroxenes: not a bulk one; unknown ids are refused
+        for (pair, id) in [
+            (true, "putirka2008-32d"),
+            (false, "bk1990"),
+            (false, "nope"),
+        ] {
+            assert!(
+                doc.apply(Command::SetPyroxeneThermometer {
+                    pair,
+                    id: id.into()
+                })
+                .is_err(),
+                "{id}"
+            );
+        }
+        doc.undo();
+        assert_eq!(
+            doc.project.settings.pyroxene_pair_thermometer,
+            before.pyroxene_pair_thermometer
+        );
+    }
 }

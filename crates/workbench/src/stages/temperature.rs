@@ -54,12 +54,61 @@ fn figure_with_export(
     }
 }
 
+/// A choice of pyroxene thermometer: two-pyroxene ones for the pair, clinopyroxene-only ones
+/// for the bulk, each with its citation and published standard error.
+fn pyroxene_thermometer_ui(ui: &mut Ui, pair: bool, current: &str, actions: &mut Vec<Action>) {
+    use solvus::pyroxene::PyroxeneThermometer;
+    let label = ui.label(if pair {
+        "Pair thermometer"
+    } else {
+        "Bulk thermometer"
+    });
+    label.clone().on_hover_text(if pair {
+        "Two-pyroxene thermometer for the lamella pair: its exsolution temperature"
+    } else {
+        "Clinopyroxene-only thermometer for the reintegrated bulk: its minimum crystallisation temperature"
+    });
+    let mut chosen = current.to_string();
+    egui::ComboBox::from_id_salt(if pair { "px-pair" } else { "px-bulk" })
+        .selected_text(&chosen)
+        .show_ui(ui, |ui| {
+            for t in PyroxeneThermometer::ALL
+                .into_iter()
+                .filter(|t| t.needs_pair() == pair)
+            {
+                ui.selectable_value(&mut chosen, t.id().to_string(), t.id())
+                    .on_hover_text(format!(
+                        "{}; standard error ±{:.0} °C",
+                        t.citation(),
+                        t.see_c()
+                    ));
+            }
+        })
+        .response
+        .labelled_by(label.id);
+    if chosen != current {
+        actions.push(Action::Edit(Command::SetPyroxeneThermometer {
+            pair,
+            id: chosen,
+        }));
+    }
+}
+
 impl TemperatureStage {
     /// Draw the stage.
     pub fn ui(&mut self, ui: &mut Ui, view: &View<'_>, actions: &mut Vec<Action>) {
         let settings = &view.doc.project.settings;
+        let pyroxene = view
+            .grain
+            .and_then(|g| view.result(g))
+            .is_some_and(|r| r.system == reintegration::MineralSystem::Pyroxene);
         ui.horizontal(|ui| {
-            let model_label = ui.label("Model");
+            if pyroxene {
+                pyroxene_thermometer_ui(ui, true, &settings.pyroxene_pair_thermometer, actions);
+                pyroxene_thermometer_ui(ui, false, &settings.pyroxene_bulk_thermometer, actions);
+                ui.separator();
+            }
+            let model_label = ui.label(if pyroxene { "Feldspar model" } else { "Model" });
             model_label
                 .clone()
                 .on_hover_text("Solution model of the feldspar solvus");
