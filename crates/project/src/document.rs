@@ -165,12 +165,17 @@ impl Grain {
             .map(|e| e.wt)
     }
 
-    /// A spot analysis with the user's corrections applied (a corrected value replaces the
-    /// file's value and any below-detection or not-determined mark on it).
+    /// A spot analysis with the user's corrections applied: a corrected value replaces the
+    /// file's value and any below-detection or not-determined mark on it, and the file's total
+    /// (when it has one) moves by the same amount, so that the check of the total against the
+    /// sum of the oxides still catches a mistyped column and not the correction itself.
     pub fn edited_analysis(&self, analysis: &Analysis) -> Analysis {
         let mut a = analysis.clone();
         for e in self.spot_edits.iter().filter(|e| e.spot == a.id.spot) {
-            a.oxides_wt.insert(e.oxide, e.wt);
+            let old = a.oxides_wt.insert(e.oxide, e.wt).unwrap_or(0.0);
+            if let Some(total) = a.reported_total_wt.as_mut() {
+                *total += e.wt - old;
+            }
             a.censored.remove(&e.oxide);
         }
         a

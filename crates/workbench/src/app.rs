@@ -391,6 +391,22 @@ impl Workbench {
         })
     }
 
+    /// Class of a pixel in the automatic classification of the selected micrograph (before
+    /// hand edits; `u8::MAX` = not measured), for tests.
+    #[doc(hidden)]
+    pub fn automatic_class_at(&self, x: u32, y: u32) -> Option<u8> {
+        let c = self.classes.as_ref()?;
+        let i = y as usize * c.base.width as usize + x as usize;
+        c.base.class_map.get(i).copied()
+    }
+
+    /// Pixels in the region and measured pixels of the classification shown, for tests.
+    #[doc(hidden)]
+    pub fn shown_pixel_counts(&self) -> Option<(u64, u64)> {
+        let c = self.classes.as_ref()?;
+        Some((c.segmentation.region_pixels, c.segmentation.measured_pixels))
+    }
+
     /// The view state of the micrograph canvas (for tests driving the region and hand tools).
     #[doc(hidden)]
     pub fn canvas(&mut self) -> &mut stages::image::ImageStage {

@@ -34,6 +34,7 @@ mod stages;
 mod tiles;
 
 pub use app::{Stage, Workbench, WorkbenchOptions};
+pub use stages::image::{ImageStage, Tool};
 
 use std::path::{Path, PathBuf};
 

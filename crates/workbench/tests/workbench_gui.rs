@@ -38,13 +38,17 @@ fn demo_copy(name: &str) -> PathBuf {
 }
 
 fn harness(name: &str) -> Harness<'static, Workbench> {
+    harness_sized(name, vec2(1500.0, 940.0))
+}
+
+fn harness_sized(name: &str, size: egui::Vec2) -> Harness<'static, Workbench> {
     let app = Workbench::new(WorkbenchOptions {
         project: Some(demo_copy(name)),
         remember_recent: false,
         run_on_open: false,
     });
     Harness::builder()
-        .with_size(vec2(1500.0, 940.0))
+        .with_size(size)
         .with_context_setup(workbench::install_fonts)
         .build_ui_state(|ui, app: &mut Workbench| app.ui_root(ui), app)
 }
@@ -308,4 +312,400 @@ fn every_button_and_menu_item_can_be_pressed_without_a_panic() {
         h.get_by_label(menu).click();
         h.run_ok();
     }
+}
+
+/// A click at a screen position (press and release without moving).
+fn click_at(h: &mut Harness<'_, Workbench>, pos: egui::Pos2) {
+    h.hover_at(pos);
+    h.step();
+    h.drag_at(pos);
+    h.step();
+    h.drop_at(pos);
+    h.step();
+    h.step();
+}
+
+fn first_micrograph() -> MicrographRef {
+    MicrographRef {
+        grain: GrainRef {
+            sample: 0,
+            grain: 0,
+        },
+        micrograph: 0,
+    }
+}
+
+#[test]
+fn tracing_a_polygon_changes_the_fractions_by_its_area_and_undo_takes_it_back() {
+    let mut h = harness("trace");
+    h.get_by_label("Phases").click();
+    settle(&mut h, Duration::from_secs(120));
+    let before = h.state().shown_fractions().expect("fractions shown");
+    let (_, measured) = h.state().shown_pixel_counts().expect("classified");
+    // The rectangle 200..280 x 150..210 px, corners on pixel edges: by the pixel-centre rule
+    // (micrograph::roi; Foley et al. 1990, §3.6) it holds the 80 x 60 pixels whose centres are
+    // inside, its shoelace area. Those that were host (and measured) become lamella.
+    let (x0, y0, x1, y1) = (200u32, 150u32, 280u32, 210u32);
+    let host_class = h
+        .state()
+        .document()
+        .micrograph(first_micrograph())
+        .expect("micrograph")
+        .class_phases
+        .iter()
+        .position(|p| p == "host")
+        .expect("a host class") as u8;
+    let mut host_inside = 0u64;
+    for y in y0..y1 {
+        for x in x0..x1 {
+            if h.state().automatic_class_at(x, y) == Some(host_class) {
+                host_inside += 1;
+            }
+        }
+    }
+    assert!(host_inside > 1000, "{host_inside}");
+    // Polygon tool, phase "lamella" (the buttons of the By hand section).
+    h.get_by_label("Polygon").click();
+    h.run_ok();
+    h.get_by_label_contains("■ lamella").click();
+    h.run_ok();
+    let corners = [[x0, y0], [x1, y0], [x1, y1], [x0, y1]];
+    for c in corners {
+        let p = h
+            .state_mut()
+            .canvas()
+            .screen_pos([f64::from(c[0]), f64::from(c[1])])
+            .expect("canvas drawn");
+        click_at(&mut h, p);
+    }
+    h.key_press(Key::Enter);
+    settle(&mut h, Duration::from_secs(120));
+    let spec = h
+        .state()
+        .document()
+        .micrograph(first_micrograph())
+        .expect("micrograph")
+        .clone();
+    assert_eq!(spec.hand_edits.len(), 1, "status: {}", h.state().status());
+    let project::EditShape::Polygon { vertices } = &spec.hand_edits[0].shape else {
+        panic!("a polygon");
+    };
+    // The clicks land on the corners to within a screen pixel's worth of image pixels.
+    let zoom = h
+        .state_mut()
+        .canvas()
+        .screen_pos([1.0, 0.0])
+        .zip(h.state_mut().canvas().screen_pos([0.0, 0.0]))
+        .map(|(a, b)| a.x - b.x)
+        .expect("zoom");
+    for (v, c) in vertices.iter().zip(corners) {
+        assert!(
+            (v[0] - f64::from(c[0])).abs() <= 1.0 / f64::from(zoom)
+                && (v[1] - f64::from(c[1])).abs() <= 1.0 / f64::from(zoom),
+            "{v:?} vs {c:?}"
+        );
+    }
+    // Move the corners to the exact pixel edges the count above used (a click cannot be placed
+    // more finely than a screen point), as one undoable edit.
+    h.state_mut().edit(Command::RemoveHandEdit {
+        at: first_micrograph(),
+        index: 0,
+    });
+    h.state_mut().edit(Command::AddHandEdit {
+        at: first_micrograph(),
+        edit: project::HandEdit {
+            shape: project::EditShape::Polygon {
+                vertices: corners
+                    .iter()
+                    .map(|c| [f64::from(c[0]), f64::from(c[1])])
+                    .collect(),
+            },
+            phase: Some("lamella".into()),
+        },
+    });
+    settle(&mut h, Duration::from_secs(120));
+    let after = h
+        .state()
+        .shown_fractions()
+        .expect("fractions after the edit");
+    let (_, measured_after) = h.state().shown_pixel_counts().expect("classified");
+    assert_eq!(measured_after, measured);
+    // Lamella is the grain's second phase; it gains exactly the host pixels inside (1e-12:
+    // sums of the same integers in double precision).
+    let expected = before[1] + host_inside as f64 / measured as f64;
+    assert!(
+        (after[1] - expected).abs() < 1e-12,
+        "after {after:?} expected {expected}"
+    );
+    // Undo (Ctrl+Z) removes the edit: the fractions are those before.
+    h.key_press_modifiers(Modifiers::COMMAND, Key::Z);
+    settle(&mut h, Duration::from_secs(120));
+    let undone = h.state().shown_fractions().expect("fractions after undo");
+    assert!(
+        (undone[1] - before[1]).abs() < 1e-12,
+        "{undone:?} {before:?}"
+    );
+    assert!(
+        h.state()
+            .document()
+            .micrograph(first_micrograph())
+            .expect("micrograph")
+            .hand_edits
+            .is_empty()
+    );
+}
+
+#[test]
+fn an_exclude_polygon_traced_on_the_image_leaves_its_pixels_out_and_vertices_edit() {
+    let mut h = harness("region");
+    h.get_by_label("Image").click();
+    settle(&mut h, Duration::from_secs(120));
+    let (region_before, _) = h.state().shown_pixel_counts().expect("classified");
+    h.get_by_label("Exclude polygon").click();
+    h.run_ok();
+    let corners = [
+        [100.0, 300.0],
+        [160.0, 300.0],
+        [160.0, 340.0],
+        [100.0, 340.0],
+    ];
+    for c in corners {
+        let p = h.state_mut().canvas().screen_pos(c).expect("canvas drawn");
+        click_at(&mut h, p);
+    }
+    // Clicking the first corner again closes the polygon.
+    let first = h
+        .state_mut()
+        .canvas()
+        .screen_pos(corners[0])
+        .expect("canvas");
+    click_at(&mut h, first);
+    settle(&mut h, Duration::from_secs(120));
+    let spec = h
+        .state()
+        .document()
+        .micrograph(first_micrograph())
+        .expect("micrograph")
+        .clone();
+    let added = spec
+        .region
+        .exclude
+        .last()
+        .expect("an exclude polygon")
+        .clone();
+    assert_eq!(added.0.len(), 4, "status: {}", h.state().status());
+    // The region loses exactly the pixels of the traced polygon that were in it, counted by
+    // rasterising the stored polygon with the old region (pixel-centre rule, micrograph::roi).
+    let mut old = spec.region.clone();
+    old.exclude.pop();
+    let (w, hgt) = (640, 480);
+    let old_mask = old.rasterise(w, hgt).expect("region");
+    let poly_mask = micrograph::roi::Roi {
+        include: vec![added.clone()],
+        exclude: vec![],
+    }
+    .rasterise(w, hgt)
+    .expect("polygon");
+    let inside = old_mask
+        .bits
+        .iter()
+        .zip(&poly_mask.bits)
+        .filter(|(a, b)| **a && **b)
+        .count() as u64;
+    // About its shoelace area: 60 x 40 px, give or take half its perimeter (the pixel-centre
+    // rule's bound) plus a screen point of click placement on each side.
+    assert!((inside as f64 - 2400.0).abs() < 200.0, "{inside}");
+    let (region_after, _) = h.state().shown_pixel_counts().expect("classified");
+    assert_eq!(region_before - region_after, inside);
+    // Edit vertices: drag the first corner 10 px left.
+    h.get_by_label("Edit vertices").click();
+    h.run_ok();
+    let from = h
+        .state_mut()
+        .canvas()
+        .screen_pos(added.0[0])
+        .expect("canvas");
+    let to = h
+        .state_mut()
+        .canvas()
+        .screen_pos([added.0[0][0] - 10.0, added.0[0][1]])
+        .expect("canvas");
+    h.hover_at(from);
+    h.step();
+    h.drag_at(from);
+    h.step();
+    h.hover_at(from + (to - from) * 0.5);
+    h.step();
+    h.hover_at(to);
+    h.step();
+    h.drop_at(to);
+    settle(&mut h, Duration::from_secs(120));
+    let moved = h
+        .state()
+        .document()
+        .micrograph(first_micrograph())
+        .expect("micrograph")
+        .region
+        .exclude
+        .last()
+        .expect("polygon")
+        .0[0];
+    assert!((moved[0] - (added.0[0][0] - 10.0)).abs() < 1.0, "{moved:?}");
+    // Right-click a corner: it goes.
+    let corner = h
+        .state_mut()
+        .canvas()
+        .screen_pos(added.0[2])
+        .expect("canvas");
+    h.hover_at(corner);
+    h.step();
+    h.event(egui::Event::PointerButton {
+        pos: corner,
+        button: egui::PointerButton::Secondary,
+        pressed: true,
+        modifiers: Modifiers::NONE,
+    });
+    h.step();
+    h.event(egui::Event::PointerButton {
+        pos: corner,
+        button: egui::PointerButton::Secondary,
+        pressed: false,
+        modifiers: Modifiers::NONE,
+    });
+    settle(&mut h, Duration::from_secs(120));
+    let left = h
+        .state()
+        .document()
+        .micrograph(first_micrograph())
+        .expect("micrograph")
+        .region
+        .exclude
+        .last()
+        .expect("polygon")
+        .0
+        .len();
+    assert_eq!(left, 3);
+}
+
+#[test]
+fn leaving_out_a_spot_and_correcting_another_change_the_bulk() {
+    let mut h = harness("spots");
+    h.state_mut().edit(Command::SetDraws(50));
+    h.query_all_by_label("▶ Compute all grains")
+        .next()
+        .expect("a compute button")
+        .click();
+    settle(&mut h, Duration::from_secs(600));
+    let bulk = |h: &Harness<'_, Workbench>| {
+        h.state()
+            .results()
+            .and_then(|r| {
+                r.grains
+                    .iter()
+                    .find(|g| g.sample == "TM-01" && g.grain == "g1")
+            })
+            .map(|g| (g.reintegration.molar[1], g.phases[0].spots_used.clone()))
+            .expect("TM-01/g1 computed")
+    };
+    let (or0, used0) = bulk(&h);
+    assert!(used0.contains(&"g1-h1".to_string()));
+    h.get_by_label("Analyses").click();
+    h.run_ok();
+    // Untick spot g1-h1 and compute the grain again.
+    h.get_by_label("g1-h1").click();
+    h.run_ok();
+    assert!(
+        h.state()
+            .document()
+            .grain(GrainRef::default())
+            .expect("grain")
+            .excluded_spots
+            == vec!["g1-h1".to_string()]
+    );
+    h.get_by_label("Bulk").click();
+    h.run_ok();
+    h.get_by_label("▶ Compute this grain").click();
+    settle(&mut h, Duration::from_secs(300));
+    let (or1, used1) = bulk(&h);
+    assert!(!used1.contains(&"g1-h1".to_string()));
+    assert!((or1 - or0).abs() > 1e-6, "{or0} {or1}");
+    // Correct the K2O of g1-h2 (14.72 in the file) to 14.52 wt %: while the spot stays in use,
+    // less K in the host means less Or in the bulk.
+    h.get_by_label("Analyses").click();
+    h.run_ok();
+    h.get_by_label("14.72").click();
+    h.run_ok();
+    h.key_press_modifiers(Modifiers::COMMAND, Key::A);
+    h.event(egui::Event::Text("14.52".into()));
+    h.key_press(Key::Enter);
+    h.run_ok();
+    let g = h
+        .state()
+        .document()
+        .grain(GrainRef::default())
+        .expect("grain");
+    assert_eq!(g.spot_edit("g1-h2", mineral::Oxide::K2O), Some(14.52));
+    h.get_by_label("Bulk").click();
+    h.run_ok();
+    h.get_by_label("▶ Compute this grain").click();
+    settle(&mut h, Duration::from_secs(300));
+    let (or2, used2) = bulk(&h);
+    assert!(used2.contains(&"g1-h2".to_string()), "{used2:?}");
+    assert!(or2 < or1 - 1e-5, "{or1} {or2}");
+    // Both edits undo.
+    h.key_press_modifiers(Modifiers::COMMAND, Key::Z);
+    h.key_press_modifiers(Modifiers::COMMAND, Key::Z);
+    h.run_ok();
+    let g = h
+        .state()
+        .document()
+        .grain(GrainRef::default())
+        .expect("grain");
+    assert!(g.excluded_spots.is_empty() && g.spot_edits.is_empty());
+}
+
+#[test]
+fn points_are_counted_with_number_keys_and_reported_with_their_interval() {
+    // A tall window, so that the point-count section of the Phases controls is in view.
+    let mut h = harness_sized("points", vec2(1500.0, 1700.0));
+    h.get_by_label("Phases").click();
+    settle(&mut h, Duration::from_secs(120));
+    h.get_by_label("Regular grid").click();
+    settle(&mut h, Duration::from_secs(60));
+    h.get_by_label("Count points").click();
+    h.run_ok();
+    // With the cursor over the canvas away from any point, each key marks the next point.
+    let centre = h
+        .state_mut()
+        .canvas()
+        .screen_pos([3.0, 3.0])
+        .expect("canvas");
+    h.hover_at(centre);
+    h.step();
+    for key in [Key::Num1, Key::Num1, Key::Num2, Key::Num0] {
+        h.key_press(key);
+        h.step();
+    }
+    h.run_ok();
+    let count = h
+        .state()
+        .document()
+        .micrograph(first_micrograph())
+        .expect("micrograph")
+        .point_count
+        .clone()
+        .expect("a point count");
+    let phases: Vec<Option<String>> = count.marks.iter().map(|m| m.phase.clone()).collect();
+    assert_eq!(
+        phases,
+        vec![
+            Some("host".into()),
+            Some("host".into()),
+            Some("lamella".into()),
+            None
+        ]
+    );
+    // 2 host of 3 counted: 0.667 with the Wilson interval 0.208-0.939 (Wilson 1927 formula;
+    // SciPy binomtest(2, 3).proportion_ci(method="wilson") gives 0.2077, 0.9385).
+    h.get_by_label("0.667 (0.208–0.939)");
 }
