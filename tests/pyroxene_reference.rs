@@ -183,3 +183,67 @@ fn a_result_far_outside_the_calibration_is_flagged() {
         );
     }
 }
+
+/// An Al-, Cr-, Ti-, Na-, Mn-free clinopyroxene and orthopyroxene (cations per 6 O, Si = 2,
+/// charge 12), whose Putirka (2008) components can be worked by hand.
+fn simple_pair() -> (
+    solvus::pyroxene::PyroxeneCations,
+    solvus::pyroxene::PyroxeneCations,
+) {
+    let cpx = solvus::pyroxene::PyroxeneCations {
+        si: 2.0,
+        ca: 0.8,
+        mg: 0.9,
+        fe_total: 0.3,
+        ..Default::default()
+    };
+    let opx = solvus::pyroxene::PyroxeneCations {
+        si: 2.0,
+        ca: 0.04,
+        mg: 1.6,
+        fe_total: 0.36,
+        ..Default::default()
+    };
+    (cpx, opx)
+}
+
+#[test]
+fn putirka_eqs_36_37_32d_reproduce_the_published_equations_by_hand() {
+    // Source: Putirka (2008) Rev. Mineral. Geochem. 69, eqs 36, 37 and 32d, with the components
+    // of that paper in the form Thermobar 1.0.75 transcribes them (core.py, two_pyroxene.py,
+    // clinopyroxene_thermobarometry.py). Worked by hand for the simple pair above, no Al, so
+    // Al(IV) = 0, CaTs = CaTi = CrCaTs = Jd = 0:
+    //   cpx: DiHd = Ca = 0.8; EnFs = (Fe + Mg - DiHd)/2 = 0.2; Di = DiHd Mg/(Mg+Fe) = 0.6;
+    //        a_En = (1 - Ca - Na - K)(1 - (Al + Cr + Na + K)/2) = 0.2
+    //   opx: Fm2Si2O6 = (Fe + Mg + Mn - Ca)/2 = 0.96; En = 0.96 × 1.6/1.96; Di = 0.04 × 1.6/1.96;
+    //        FmAl2SiO6 = 0
+    // Tolerance 1e-6 K: the same arithmetic, only the order of operations differs.
+    let (cpx, opx) = simple_pair();
+    let p = 10.0;
+    let en_opx = 0.96 * 1.6 / 1.96;
+    let di_opx = 0.04 * 1.6 / 1.96;
+    let ln_ratio = (0.2f64 / 0.96).ln();
+    // eq 36: T(°C) = 10^4 / (11.2 - 1.96 ln(EnFs_cpx/Fm2Si2O6_opx) - 3.3 Ca_cpx - 25.8 CrCaTs
+    //        + 33.2 Mn_opx - 23.6 Na_opx - 2.08 En_opx - 8.33 Di_opx - 0.05 P)
+    let eq36 =
+        1e4 / (11.2 - 1.96 * ln_ratio - 3.3 * 0.8 - 2.08 * en_opx - 8.33 * di_opx - 0.05 * p);
+    // eq 37: T(°C) = 10^4 / (13.4 - 3.4 ln(EnFs_cpx/Fm2Si2O6_opx) + 5.59 ln(Mg_cpx)
+    //        + 23.85 Mn_opx + 6.48 FmAl2SiO6_opx - 2.38 Di_cpx - 0.044 P - 8.8 Mg#_cpx)
+    let eq37 =
+        1e4 / (13.4 - 3.4 * ln_ratio + 5.59 * 0.9f64.ln() - 2.38 * 0.6 - 0.044 * p - 8.8 * 0.75);
+    // eq 32d: T(K) = (93100 + 544 P) / (61.1 + 36.6 Ti + 10.9 Fe - 0.95 (Al + Cr - Na - K)
+    //        + 0.395 (ln a_En)^2)
+    let eq32d = (93_100.0 + 544.0 * p) / (61.1 + 10.9 * 0.3 + 0.395 * 0.2f64.ln().powi(2)) - 273.15;
+    for (t, want) in [
+        (PyroxeneThermometer::Putirka2008Eq36, eq36),
+        (PyroxeneThermometer::Putirka2008Eq37, eq37),
+        (PyroxeneThermometer::Putirka2008Eq32d, eq32d),
+    ] {
+        let got = pyroxene_temperature(t, &cpx, Some(&opx), p)
+            .expect("temperature")
+            .temperature_c;
+        assert!((got - want).abs() < 1e-6, "{}: {got} vs {want}", t.id());
+        // and the numbers are sensible for such a pair (a check on the hand work itself)
+        assert!((700.0..1400.0).contains(&want), "{}: {want}", t.id());
+    }
+}
