@@ -43,6 +43,7 @@ use serde::{Deserialize, Serialize};
 
 mod grain;
 mod histogram;
+mod marks;
 mod micrograph;
 mod quadrilateral;
 pub mod render;

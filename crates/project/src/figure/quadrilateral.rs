@@ -2,9 +2,10 @@
 //! triangle, with a grain's spot analyses, phase means joined by the lamella tie-line, the Monte
 //! Carlo cloud of the reintegrated bulk and its median.
 
+use super::marks;
 use super::{
     Anchor, Dash, Figure, FigureError, FigureSize, Frame, Item, Label, LegendEntry, LegendPlace,
-    LegendSymbol, MarkerShape, Markers, Polyline, SpotPoint, Style, palette,
+    LegendSymbol, Polyline, SpotPoint, Style, palette,
 };
 use crate::run::GrainResult;
 use reintegration::MineralSystem;
@@ -145,45 +146,27 @@ fn frame_items(fig: &mut Figure, fields: bool) {
         ],
         style: Style::solid(palette::BLACK, 0.8),
     }));
-    for (at, off, text, anchor) in [
-        ([0.0, 0.0], [-3.0, -9.0], "En", Anchor::Middle),
-        ([1.0, 0.0], [3.0, -9.0], "Fs", Anchor::Middle),
-        (
-            quadrilateral_xy(0.5, 0.5, 0.0),
-            [-4.0, 4.0],
-            "Di",
-            Anchor::End,
-        ),
-        (
-            quadrilateral_xy(0.5, 0.0, 0.5),
-            [4.0, 4.0],
-            "Hd",
-            Anchor::Start,
-        ),
-    ] {
-        fig.items.push(Item::Label(Label {
-            at,
-            offset_pt: off,
-            text: text.into(),
-            size_pt: f * 1.2,
-            colour: palette::BLACK,
-            anchor,
-            halo: false,
-        }));
-    }
+    marks::corner_labels(
+        fig,
+        &[
+            ([0.0, 0.0], [-3.0, -9.0], "En", Anchor::Middle),
+            ([1.0, 0.0], [3.0, -9.0], "Fs", Anchor::Middle),
+            (
+                quadrilateral_xy(0.5, 0.5, 0.0),
+                [-4.0, 4.0],
+                "Di",
+                Anchor::End,
+            ),
+            (
+                quadrilateral_xy(0.5, 0.0, 0.5),
+                [4.0, 4.0],
+                "Hd",
+                Anchor::Start,
+            ),
+        ],
+    );
     // X_Fs every 0.2 along the En–Fs edge; X_Wo at the left edge
-    for k in 1..5 {
-        let c = k as f64 / 5.0;
-        fig.items.push(Item::Label(Label {
-            at: [c, 0.0],
-            offset_pt: [0.0, -8.0],
-            text: format!("{c:.1}"),
-            size_pt: f * 0.85,
-            colour: palette::BLACK,
-            anchor: Anchor::Middle,
-            halo: false,
-        }));
-    }
+    marks::base_ticks(fig, -8.0);
     for wo in [0.1, 0.2, 0.3, 0.4] {
         fig.items.push(Item::Label(Label {
             at: quadrilateral_xy(wo, 1.0 - wo, 0.0),
@@ -196,13 +179,6 @@ fn frame_items(fig: &mut Figure, fields: bool) {
         }));
     }
 }
-
-const SPOT_SHAPES: [MarkerShape; 3] = [MarkerShape::Circle, MarkerShape::Plus, MarkerShape::Cross];
-const PHASE_SHAPES: [MarkerShape; 3] = [
-    MarkerShape::Square,
-    MarkerShape::TriangleUp,
-    MarkerShape::TriangleDown,
-];
 
 /// The pyroxene quadrilateral (En lower left, Fs lower right, Di and Hd at the top corners) for a
 /// pyroxene grain: its spot analyses as small symbols, the phase means joined by the lamella
@@ -243,53 +219,8 @@ pub fn quadrilateral_figure(
         });
     }
     let f = fig.font_size_pt;
-    let draws = &grain.monte_carlo.bulk_draws;
-    if !draws.is_empty() && options.cloud_points > 0 {
-        let step = draws.len().div_ceil(options.cloud_points).max(1);
-        fig.items.push(Item::Markers(Markers {
-            points: draws.iter().step_by(step).map(|d| xy(d)).collect(),
-            shape: MarkerShape::Circle,
-            size_pt: 1.2,
-            colour: palette::GREY,
-            fill: Some(palette::GREY),
-            opacity: 0.5,
-        }));
-        fig.legend.push(LegendEntry {
-            label: format!("bulk, {} Monte Carlo draws", draws.len().div_ceil(step)),
-            symbol: LegendSymbol::Marker {
-                shape: MarkerShape::Circle,
-                colour: palette::GREY,
-                fill: Some(palette::GREY),
-            },
-        });
-    }
-    for (i, phase) in grain.phases.iter().enumerate() {
-        let pts: Vec<[f64; 2]> = spots
-            .iter()
-            .filter(|s| s.phase == phase.label)
-            .map(|s| xy(&s.fractions))
-            .collect();
-        if pts.is_empty() {
-            continue;
-        }
-        let shape = SPOT_SHAPES[i % SPOT_SHAPES.len()];
-        fig.items.push(Item::Markers(Markers {
-            points: pts,
-            shape,
-            size_pt: 2.4,
-            colour: palette::BLACK,
-            fill: None,
-            opacity: 1.0,
-        }));
-        fig.legend.push(LegendEntry {
-            label: format!("{} spots", phase.label),
-            symbol: LegendSymbol::Marker {
-                shape,
-                colour: palette::BLACK,
-                fill: None,
-            },
-        });
-    }
+    marks::bulk_cloud(&mut fig, grain, options.cloud_points, xy);
+    marks::spot_marks(&mut fig, grain, spots, xy);
     if let [a, b] = &grain.phases[..] {
         let tie = Style::dashed(palette::BLUE, 0.9, Dash::Dashed);
         let (pa, pb) = (xy(&a.mean), xy(&b.mean));
@@ -311,31 +242,14 @@ pub fn quadrilateral_figure(
             symbol: LegendSymbol::Line(tie),
         });
     }
-    for (i, phase) in grain.phases.iter().enumerate() {
-        let shape = PHASE_SHAPES[i % PHASE_SHAPES.len()];
-        let [wo, _, fs] = wo_en_fs(&phase.mean);
-        fig.items.push(Item::Markers(Markers {
-            points: vec![xy(&phase.mean)],
-            shape,
-            size_pt: 4.5,
-            colour: palette::BLACK,
-            fill: Some(palette::SKY_BLUE),
-            opacity: 1.0,
-        }));
-        fig.legend.push(LegendEntry {
-            label: format!(
-                "{} mean (Wo_{{{:.0}}} Fs_{{{:.0}}})",
-                phase.label,
-                wo * 100.0,
-                fs * 100.0
-            ),
-            symbol: LegendSymbol::Marker {
-                shape,
-                colour: palette::BLACK,
-                fill: Some(palette::SKY_BLUE),
-            },
-        });
-    }
+    marks::phase_means(&mut fig, grain, xy, |label, mean| {
+        let [wo, _, fs] = wo_en_fs(mean);
+        format!(
+            "{label} mean (Wo_{{{:.0}}} Fs_{{{:.0}}})",
+            wo * 100.0,
+            fs * 100.0
+        )
+    });
     let median: Vec<f64> = grain.monte_carlo.bulk.iter().map(|s| s.median).collect();
     let bulk = if median.len() == 4 {
         median
@@ -344,27 +258,16 @@ pub fn quadrilateral_figure(
     };
     if bulk.len() == 4 {
         let at = xy(&bulk);
-        fig.items.push(Item::Markers(Markers {
-            points: vec![at],
-            shape: MarkerShape::Diamond,
-            size_pt: 5.5,
-            colour: palette::BLACK,
-            fill: Some(palette::VERMILLION),
-            opacity: 1.0,
-        }));
         let [wo, _, fs] = wo_en_fs(&bulk);
-        fig.legend.push(LegendEntry {
-            label: format!(
+        marks::bulk_mark(
+            &mut fig,
+            at,
+            format!(
                 "bulk (median), Wo_{{{:.0}}} Fs_{{{:.0}}}",
                 wo * 100.0,
                 fs * 100.0
             ),
-            symbol: LegendSymbol::Marker {
-                shape: MarkerShape::Diamond,
-                colour: palette::BLACK,
-                fill: Some(palette::VERMILLION),
-            },
-        });
+        );
         if let Some(t) = grain.min_temperature() {
             fig.items.push(Item::Label(Label {
                 at,

@@ -8,10 +8,11 @@ use serde::{Deserialize, Serialize};
 use solvus::units::{bar_from_kbar, kelvin_from_celsius};
 use solvus::{SolutionModel, ternary_isotherm};
 
+use super::marks;
 use super::solvus_diagram::short_citation;
 use super::{
     Anchor, Dash, Figure, FigureError, FigureSize, Frame, Item, Label, LegendEntry, LegendPlace,
-    LegendSymbol, MarkerShape, Markers, Polyline, Style, palette,
+    LegendSymbol, Polyline, Style, palette,
 };
 use crate::document::Project;
 use crate::run::GrainResult;
@@ -145,35 +146,16 @@ fn frame_items(fig: &mut Figure) {
         points: vec![[0.0, 0.0], [1.0, 0.0], [0.5, H], [0.0, 0.0]],
         style: Style::solid(palette::BLACK, 0.8),
     }));
-    let f = fig.font_size_pt;
-    for (at, off, text, anchor) in [
-        ([0.0, 0.0], [-2.0, -8.0], "Ab", Anchor::Middle),
-        ([1.0, 0.0], [2.0, -8.0], "Or", Anchor::Middle),
-        ([0.5, H], [0.0, 6.0], "An", Anchor::Middle),
-    ] {
-        fig.items.push(Item::Label(Label {
-            at,
-            offset_pt: off,
-            text: text.into(),
-            size_pt: f * 1.2,
-            colour: palette::BLACK,
-            anchor,
-            halo: false,
-        }));
-    }
+    marks::corner_labels(
+        fig,
+        &[
+            ([0.0, 0.0], [-2.0, -8.0], "Ab", Anchor::Middle),
+            ([1.0, 0.0], [2.0, -8.0], "Or", Anchor::Middle),
+            ([0.5, H], [0.0, 6.0], "An", Anchor::Middle),
+        ],
+    );
     // edge ticks every 0.2 on the Ab–Or edge (X_Or)
-    for k in 1..5 {
-        let c = k as f64 / 5.0;
-        fig.items.push(Item::Label(Label {
-            at: [c, 0.0],
-            offset_pt: [0.0, -7.0],
-            text: format!("{c:.1}"),
-            size_pt: f * 0.85,
-            colour: palette::BLACK,
-            anchor: Anchor::Middle,
-            halo: false,
-        }));
-    }
+    marks::base_ticks(fig, -7.0);
 }
 
 /// Ternary Ab–An–Or diagram (Ab lower left, Or lower right, An at the top) with isotherms of a
@@ -316,97 +298,13 @@ pub fn ternary_figure(
     Ok(fig)
 }
 
-const SPOT_SHAPES: [MarkerShape; 3] = [MarkerShape::Circle, MarkerShape::Plus, MarkerShape::Cross];
-const PHASE_SHAPES: [MarkerShape; 3] = [
-    MarkerShape::Square,
-    MarkerShape::TriangleUp,
-    MarkerShape::TriangleDown,
-];
-
 fn grain_items(fig: &mut Figure, g: &GrainResult, spots: &[SpotPoint], cloud_points: usize) {
-    let draws = &g.monte_carlo.bulk_draws;
-    if !draws.is_empty() && cloud_points > 0 {
-        let step = draws.len().div_ceil(cloud_points).max(1);
-        fig.items.push(Item::Markers(Markers {
-            points: draws.iter().step_by(step).map(|d| xy(d)).collect(),
-            shape: MarkerShape::Circle,
-            size_pt: 1.2,
-            colour: palette::GREY,
-            fill: Some(palette::GREY),
-            opacity: 0.5,
-        }));
-        fig.legend.push(LegendEntry {
-            label: format!("bulk, {} Monte Carlo draws", draws.len().div_ceil(step)),
-            symbol: LegendSymbol::Marker {
-                shape: MarkerShape::Circle,
-                colour: palette::GREY,
-                fill: Some(palette::GREY),
-            },
-        });
-    }
-    for (i, phase) in g.phases.iter().enumerate() {
-        let pts: Vec<[f64; 2]> = spots
-            .iter()
-            .filter(|s| s.phase == phase.label)
-            .map(|s| xy(&s.fractions))
-            .collect();
-        let shape = SPOT_SHAPES[i % SPOT_SHAPES.len()];
-        if !pts.is_empty() {
-            fig.items.push(Item::Markers(Markers {
-                points: pts,
-                shape,
-                size_pt: 2.4,
-                colour: palette::BLACK,
-                fill: None,
-                opacity: 1.0,
-            }));
-            fig.legend.push(LegendEntry {
-                label: format!("{} spots", phase.label),
-                symbol: LegendSymbol::Marker {
-                    shape,
-                    colour: palette::BLACK,
-                    fill: None,
-                },
-            });
-        }
-    }
-    for (i, phase) in g.phases.iter().enumerate() {
-        let shape = PHASE_SHAPES[i % PHASE_SHAPES.len()];
-        fig.items.push(Item::Markers(Markers {
-            points: vec![xy(&phase.mean)],
-            shape,
-            size_pt: 4.5,
-            colour: palette::BLACK,
-            fill: Some(palette::SKY_BLUE),
-            opacity: 1.0,
-        }));
-        fig.legend.push(LegendEntry {
-            label: format!("{} mean", phase.label),
-            symbol: LegendSymbol::Marker {
-                shape,
-                colour: palette::BLACK,
-                fill: Some(palette::SKY_BLUE),
-            },
-        });
-    }
+    marks::bulk_cloud(fig, g, cloud_points, xy);
+    marks::spot_marks(fig, g, spots, xy);
+    marks::phase_means(fig, g, xy, |label, _| format!("{label} mean"));
     let bulk: Vec<f64> = g.monte_carlo.bulk.iter().map(|s| s.median).collect();
     if !bulk.is_empty() {
-        fig.items.push(Item::Markers(Markers {
-            points: vec![xy(&bulk)],
-            shape: MarkerShape::Diamond,
-            size_pt: 5.5,
-            colour: palette::BLACK,
-            fill: Some(palette::VERMILLION),
-            opacity: 1.0,
-        }));
-        fig.legend.push(LegendEntry {
-            label: "bulk (median)".into(),
-            symbol: LegendSymbol::Marker {
-                shape: MarkerShape::Diamond,
-                colour: palette::BLACK,
-                fill: Some(palette::VERMILLION),
-            },
-        });
+        marks::bulk_mark(fig, xy(&bulk), "bulk (median)".into());
     }
 }
 
