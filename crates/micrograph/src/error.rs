@@ -37,6 +37,14 @@ pub enum MicrographError {
         /// What the decoder said.
         detail: String,
     },
+    /// An image could not be written.
+    #[error("{path}: cannot write the image: {detail}")]
+    Write {
+        /// The file.
+        path: PathBuf,
+        /// What the encoder said.
+        detail: String,
+    },
     /// The image would need more memory than the budget allows.
     #[error(
         "{path}: the image ({width} x {height} px) needs about {needed_bytes} bytes, more than the \

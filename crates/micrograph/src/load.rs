@@ -198,6 +198,40 @@ impl Micrograph {
         }
     }
 
+    /// Writes the micrograph as a PNG at its depth (8/16-bit greyscale or RGB).
+    pub fn save_png(&self, path: &Path) -> Result<()> {
+        let (w, h) = (self.width, self.height);
+        let size = || MicrographError::Mismatch("pixel buffer size".to_string());
+        let image = match &self.pixels {
+            Pixels::Gray8(v) => DynamicImage::ImageLuma8(
+                image::GrayImage::from_raw(w, h, v.clone()).ok_or_else(size)?,
+            ),
+            Pixels::Gray16(v) => DynamicImage::ImageLuma16(
+                image::ImageBuffer::from_raw(w, h, v.clone()).ok_or_else(size)?,
+            ),
+            Pixels::Rgb8(v) => DynamicImage::ImageRgb8(
+                image::RgbImage::from_raw(w, h, v.iter().flatten().copied().collect())
+                    .ok_or_else(size)?,
+            ),
+            Pixels::Rgb16(v) => DynamicImage::ImageRgb16(
+                image::ImageBuffer::from_raw(w, h, v.iter().flatten().copied().collect())
+                    .ok_or_else(size)?,
+            ),
+        };
+        image
+            .save_with_format(path, image::ImageFormat::Png)
+            .map_err(|e| match e {
+                ImageError::IoError(source) => MicrographError::Io {
+                    path: path.to_path_buf(),
+                    source,
+                },
+                other => MicrographError::Write {
+                    path: path.to_path_buf(),
+                    detail: other.to_string(),
+                },
+            })
+    }
+
     /// The pixel at `(x, y)` as an 8-bit sRGB triplet (as [`Self::rgb8`]); black outside.
     pub fn rgb8_at(&self, x: u32, y: u32) -> [u8; 3] {
         if x >= self.width || y >= self.height {
