@@ -337,6 +337,11 @@ impl Workbench {
         self.stage
     }
 
+    /// Open a stage (as clicking it in the route bar does).
+    pub fn open_stage(&mut self, stage: Stage) {
+        self.stage = stage;
+    }
+
     /// The selected grain.
     pub fn selected_grain(&self) -> Option<GrainRef> {
         self.grain

@@ -862,7 +862,8 @@ impl ImageStage {
                 .min_by(|a, b| a.1.total_cmp(&b.1))
                 .map(|(i, _)| i)
         });
-        let next = (0..points.len()).find(|i| count.mark(*i).is_none());
+        let marks = marks_by_point(count, points.len());
+        let next = marks.iter().position(Option::is_none);
         let Some(point) = hovered.or(next) else {
             return;
         };
@@ -877,7 +878,7 @@ impl ImageStage {
         actions.push(Action::Edit(Command::MarkPoint { at, point, mark }));
         // Bring the following point into view when the next point was marked.
         if hovered.is_none()
-            && let Some(following) = (point + 1..points.len()).find(|i| count.mark(*i).is_none())
+            && let Some(following) = (point + 1..points.len()).find(|i| marks[*i].is_none())
         {
             let p = to_pos(points[following]);
             let view = Rect::from_center_size(self.centre, self.last_rect.size() / self.zoom);
@@ -985,24 +986,35 @@ impl ImageStage {
         to_screen: impl Fn(Pos2) -> Pos2,
         pointer: Option<Pos2>,
     ) {
-        let Some(count) = spec.point_count.clone() else {
+        let Some(count) = spec.point_count.as_ref() else {
             return;
         };
         if self.tool != Tool::Points && count.marks.is_empty() {
             return;
         }
-        let Some(Ok(points)) = self.grid_points(spec, w, h).cloned() else {
+        // Take the cached points out while drawing (no copy), and put them back after.
+        if self.grid_points(spec, w, h).is_none() {
+            return;
+        }
+        let Some((key, Ok(points))) = self.grid_cache.take() else {
             return;
         };
         let _ = view;
         let clip = painter.clip_rect();
-        let next = (0..points.len()).find(|i| count.mark(*i).is_none());
-        let mut marks: Vec<Option<&project::PointMark>> = vec![None; points.len()];
-        for m in &count.marks {
-            if let Some(slot) = marks.get_mut(m.point) {
-                *slot = Some(m);
-            }
-        }
+        let marks = marks_by_point(count, points.len());
+        let next = marks.iter().position(Option::is_none);
+        // One colour per phase label, looked up once.
+        let colours: Vec<(&str, Color32)> = spec
+            .class_phases
+            .iter()
+            .map(|l| (l.as_str(), phase_colour(spec, l)))
+            .collect();
+        let colour_of = |label: &str| {
+            colours
+                .iter()
+                .find(|(l, _)| *l == label)
+                .map_or(Color32::WHITE, |(_, c)| *c)
+        };
         for (i, p) in points.iter().enumerate() {
             let s = to_screen(to_pos(*p));
             if !clip.expand(6.0).contains(s) {
@@ -1011,8 +1023,12 @@ impl ImageStage {
             match marks[i] {
                 Some(m) => match &m.phase {
                     Some(label) => {
-                        painter.circle_filled(s, 4.0, phase_colour(spec, label));
-                        painter.circle_stroke(s, 4.0, Stroke::new(1.0, Color32::BLACK));
+                        painter.add(egui::epaint::CircleShape {
+                            center: s,
+                            radius: 4.0,
+                            fill: colour_of(label),
+                            stroke: Stroke::new(1.0, Color32::BLACK),
+                        });
                     }
                     None => {
                         painter.line_segment(
@@ -1036,7 +1052,19 @@ impl ImageStage {
                 painter.circle_stroke(s, 7.0, Stroke::new(1.5, Color32::YELLOW));
             }
         }
+        self.grid_cache = Some((key, Ok(points)));
     }
+}
+
+/// The mark of each point of a grid of `n` points (marks beyond the grid are ignored).
+fn marks_by_point(count: &project::PointCount, n: usize) -> Vec<Option<&project::PointMark>> {
+    let mut marks = vec![None; n];
+    for m in &count.marks {
+        if let Some(slot) = marks.get_mut(m.point) {
+            *slot = Some(m);
+        }
+    }
+    marks
 }
 
 /// The region vertex nearest a screen position, within `radius` points.
