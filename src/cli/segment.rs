@@ -14,7 +14,7 @@ use micrograph::histogram::Histogram;
 use micrograph::load::{LoadOptions, Micrograph, load};
 use micrograph::roi::{Mask, Roi};
 use micrograph::segment::{
-    LevelChoice, SegmentSettings, Segmentation, VoidDetection, auto_void_level, segment,
+    LevelChoice, SegmentSettings, Segmentation, VoidDetection, auto_void_level, segment_region,
 };
 use serde_json::{Value, json};
 
@@ -118,11 +118,11 @@ pub fn run(args: &SegmentArgs) -> anyhow::Result<()> {
         memory_budget_bytes: args.memory_budget_mib.saturating_mul(1024 * 1024),
     };
     let image = load(&args.image, &options)?;
-    let roi = match &args.roi {
-        Some(p) => Roi::load(p)?,
-        None => Roi::default(),
+    // No region of interest: the whole image, with no mask at all where a step needs none.
+    let region = match &args.roi {
+        Some(p) => Some(Roi::load(p)?.rasterise(image.width(), image.height())?),
+        None => None,
     };
-    let region = roi.rasterise(image.width(), image.height())?;
     let pixel_size = match (args.pixel_size_um, args.scale_bar_um, args.scale_bar_px) {
         (Some(p), _, _) => Some(PixelSize::new(p)?),
         (None, Some(um), Some(px)) => Some(PixelSize::from_scale_bar(um, px)?),
@@ -130,7 +130,7 @@ pub fn run(args: &SegmentArgs) -> anyhow::Result<()> {
     };
     let mut warnings = Vec::new();
     let (seg, extra) = match &args.seeds {
-        Some(seeds) => run_colour(args, seeds, &image, &region, pixel_size)?,
+        Some(seeds) => run_colour(args, seeds, &image, region.as_ref(), pixel_size)?,
         None => {
             if image.is_colour() {
                 warnings.push(
@@ -138,7 +138,7 @@ pub fn run(args: &SegmentArgs) -> anyhow::Result<()> {
                         .to_string(),
                 );
             }
-            run_grey(args, image, &region, pixel_size)?
+            run_grey(args, image, region.as_ref(), pixel_size)?
         }
     };
     warnings.extend(seg.warnings.iter().cloned());
@@ -291,7 +291,7 @@ pub fn run(args: &SegmentArgs) -> anyhow::Result<()> {
 fn run_grey(
     args: &SegmentArgs,
     image: Micrograph,
-    region: &Mask,
+    region: Option<&Mask>,
     pixel_size: Option<PixelSize>,
 ) -> anyhow::Result<(Segmentation, Extra)> {
     let classes = args.classes.unwrap_or(2);
@@ -314,14 +314,22 @@ fn run_grey(
         let void_level = match voids {
             VoidDetection::AtOrBelow(v) => Some(v),
             VoidDetection::Auto => auto_void_level(
-                &Histogram::of_region(&plane, Some(&region.bits), bin_shift)?,
+                &Histogram::of_region(&plane, region.map(|r| r.bits.as_slice()), bin_shift)?,
                 classes,
             ),
             _ => None,
         };
+        let full;
+        let fit_region = match region {
+            Some(r) => r,
+            None => {
+                full = Mask::full(plane.width, plane.height);
+                &full
+            }
+        };
         let (flat, fl) = flatten(
             &plane,
-            region,
+            fit_region,
             classes,
             degree,
             void_level,
@@ -350,7 +358,7 @@ fn run_grey(
         pixel_size,
         ..SegmentSettings::default()
     };
-    let seg = segment(&plane, region, &settings, &Control::none())
+    let seg = segment_region(&plane, region, &settings, &Control::none())
         .with_context(|| format!("segmenting {}", args.image.display()))?;
     let extra = Extra {
         bit_depth: plane.bit_depth(),
@@ -366,9 +374,17 @@ fn run_colour(
     args: &SegmentArgs,
     seeds_path: &std::path::Path,
     image: &Micrograph,
-    region: &Mask,
+    region: Option<&Mask>,
     pixel_size: Option<PixelSize>,
 ) -> anyhow::Result<(Segmentation, Extra)> {
+    let full;
+    let region = match region {
+        Some(r) => r,
+        None => {
+            full = Mask::full(image.width(), image.height());
+            &full
+        }
+    };
     if !image.is_colour() {
         bail!(
             "{}: --seeds needs a colour image (a stained section); this image is greyscale: leave out --seeds",

@@ -37,16 +37,17 @@ impl ClassSource for MapSource<'_> {
 }
 
 /// Classes computed on the fly: `NOT_MEASURED` outside the region, at or below the void level
-/// and on the (sorted) rim pixels; otherwise the class of the grey value by a lookup table.
+/// and on the (sorted) rim pixels; otherwise the class of the grey value, counted as the number
+/// of class tops below it (vectorised compares; no table lookups).
 pub(crate) struct Classifier<'a> {
     pub data: &'a [u16],
-    pub region: &'a [bool],
+    /// None = the whole image.
+    pub region: Option<&'a [bool]>,
     pub width: usize,
     /// Smallest measured grey value (void level + 1; 0 without voids).
     pub min_measured: u32,
-    /// Class per `value >> shift`, for every u16 value (see [`full_lut`]).
-    pub lut: &'a [u8],
-    pub shift: u32,
+    /// Largest grey value of each class but the last, non-decreasing (see [`class_tops`]).
+    pub tops: &'a [u16],
     /// Rim pixels (indices), sorted ascending.
     pub rim: &'a [usize],
 }
@@ -54,10 +55,33 @@ pub(crate) struct Classifier<'a> {
 impl ClassSource for Classifier<'_> {
     fn fill_rows(&self, y0: usize, y1: usize, out: &mut [u8]) {
         let (a, b) = (y0 * self.width, y1 * self.width);
-        let (lut, shift, min) = (self.lut, self.shift, self.min_measured);
-        for ((o, &v), &r) in out.iter_mut().zip(&self.data[a..b]).zip(&self.region[a..b]) {
-            let c = lut[usize::from(v) >> shift];
-            *o = if r & (u32::from(v) >= min) { c } else { NM };
+        let vals = &self.data[a..b];
+        match self.tops.split_first() {
+            None => out.fill(0),
+            Some((&t0, rest)) => {
+                for (o, &v) in out.iter_mut().zip(vals) {
+                    *o = u8::from(v > t0);
+                }
+                for &t in rest {
+                    for (o, &v) in out.iter_mut().zip(vals) {
+                        *o += u8::from(v > t);
+                    }
+                }
+            }
+        }
+        let min = self.min_measured;
+        match self.region {
+            Some(region) => {
+                for ((o, &v), &r) in out.iter_mut().zip(vals).zip(&region[a..b]) {
+                    *o = if r & (u32::from(v) >= min) { *o } else { NM };
+                }
+            }
+            None if min > 0 => {
+                for (o, &v) in out.iter_mut().zip(vals) {
+                    *o = if u32::from(v) >= min { *o } else { NM };
+                }
+            }
+            None => {}
         }
         let lo = self.rim.partition_point(|&i| i < a);
         let hi = self.rim.partition_point(|&i| i < b);
@@ -67,8 +91,25 @@ impl ClassSource for Classifier<'_> {
     }
 }
 
+/// The largest grey value of each class but the last for `levels` on `hist` (a level puts its
+/// whole bin in the lower class, see [`Histogram::class_bins`]), made non-decreasing as
+/// `class_bins` does; a value's class is the number of tops below it.
+pub(crate) fn class_tops(hist: &Histogram, levels: &[u16]) -> Vec<u16> {
+    let shift = hist.bin_shift();
+    let mut top = 0u16;
+    levels
+        .iter()
+        .map(|&l| {
+            let t = ((usize::from(l) >> shift) << shift) + (1usize << shift) - 1;
+            top = top.max(t.min(usize::from(u16::MAX)) as u16);
+            top
+        })
+        .collect()
+}
+
 /// Lookup table `value >> shift -> class` covering every u16 value (values above the
-/// histogram's range take the brightest class), for `levels` on `hist`.
+/// histogram's range take the brightest class): the reference for [`class_tops`].
+#[cfg(test)]
 pub(crate) fn full_lut(hist: &Histogram, levels: &[u16]) -> Vec<u8> {
     let shift = hist.bin_shift();
     let mut lut = vec![levels.len() as u8; (usize::from(u16::MAX) >> shift) + 1];
@@ -126,26 +167,51 @@ pub(crate) fn core_counts_in_bands(
     band: usize,
 ) -> Vec<u64> {
     let nbins = (usize::from(max_value) >> shift) + 1;
-    let dump = classes.min(usize::from(NM)) as u8;
-    let table = (classes + 1) * nbins;
-    let mut counts = fold_core_rows(
+    let cap = nbins - 1;
+    let dump = classes * nbins;
+    let table = dump + 1;
+    // Counts in u32 (half the cache footprint of u64), moved into the u64 totals before
+    // they could overflow; everything not a core of a class lands in one dump cell.
+    let flush = |acc: &mut (Vec<u64>, Vec<u32>, u64)| {
+        for (t, p) in acc.0.iter_mut().zip(acc.1.iter_mut()) {
+            *t += u64::from(*p);
+            *p = 0;
+        }
+        acc.2 = 0;
+    };
+    let mut acc = fold_core_rows(
         src,
         (w, h),
         d,
         band,
-        || vec![0u64; table],
+        || (vec![0u64; table], vec![0u32; table], 0u64),
         |acc, y, row| {
+            if acc.2 + w as u64 > u64::from(u32::MAX) {
+                flush(acc);
+            }
+            acc.2 += w as u64;
             let vals = &data[y * w..(y + 1) * w];
+            let part = &mut acc.1;
             for (&c, &v) in row.iter().zip(vals) {
-                let k = usize::from(c.min(dump));
-                acc[k * nbins + (usize::from(v.min(max_value)) >> shift)] += 1;
+                let bin = (usize::from(v) >> shift).min(cap);
+                let k = if usize::from(c) < classes {
+                    usize::from(c) * nbins + bin
+                } else {
+                    dump
+                };
+                part[k] += 1;
             }
         },
-        |mut a, b| {
-            a.iter_mut().zip(b).for_each(|(x, y)| *x += y);
+        |mut a, mut b| {
+            flush(&mut a);
+            flush(&mut b);
+            a.0.iter_mut().zip(b.0).for_each(|(x, y)| *x += y);
             a
         },
     );
+    // The last partial counts (a single band is never merged).
+    flush(&mut acc);
+    let mut counts = acc.0;
     counts.truncate(classes * nbins);
     counts
 }
@@ -290,12 +356,13 @@ pub(crate) fn tiles_pass(
 /// (a row minimum decides).
 pub(crate) fn void_rim_indices(
     data: &[u16],
-    region: &[bool],
+    region: Option<&[bool]>,
     w: usize,
     h: usize,
     void_level: u16,
     rim_px: u8,
 ) -> Vec<usize> {
+    let inside = |i: usize| region.is_none_or(|r| r[i]);
     rim_indices(
         (w, h),
         rim_px,
@@ -305,8 +372,8 @@ pub(crate) fn void_rim_indices(
                 .fold(u16::MAX, |m, &v| m.min(v))
                 <= void_level
         },
-        |i| data[i] <= void_level && region[i],
-        |j| region[j] && data[j] > void_level,
+        |i| data[i] <= void_level && inside(i),
+        |j| inside(j) && data[j] > void_level,
     )
 }
 

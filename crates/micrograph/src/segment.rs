@@ -334,13 +334,28 @@ pub fn segment(
     settings: &SegmentSettings,
     control: &Control,
 ) -> Result<Segmentation> {
+    segment_region(plane, Some(region), settings, control)
+}
+
+/// [`segment`] with the region optional: `None` measures the whole image without a mask (a
+/// region of interest costs one byte per pixel; at 8192 x 8192 a full mask is 64 MiB that the
+/// whole-image case does not need).
+pub fn segment_region(
+    plane: &GrayPlane,
+    region: Option<&Mask>,
+    settings: &SegmentSettings,
+    control: &Control,
+) -> Result<Segmentation> {
     let s = settings;
-    if region.width != plane.width || region.height != plane.height {
+    if let Some(region) = region
+        && (region.width != plane.width || region.height != plane.height)
+    {
         return Err(MicrographError::Mismatch(format!(
             "region is {} x {}, image {} x {}",
             region.width, region.height, plane.width, plane.height
         )));
     }
+    let bits = region.map(|r| r.bits.as_slice());
     if !(2..=16).contains(&s.classes) {
         return Err(MicrographError::InvalidParameter {
             name: "classes",
@@ -351,7 +366,7 @@ pub fn segment(
     let (w, h) = (plane.width, plane.height);
     let (wu, hu) = (w as usize, h as usize);
     control.step(0.0)?;
-    let region_hist = Histogram::of_region(plane, Some(&region.bits), s.bin_shift)?;
+    let region_hist = Histogram::of_region(plane, bits, s.bin_shift)?;
     let region_pixels = region_hist.total();
     if region_pixels == 0 {
         return Err(MicrographError::EmptyRegion {
@@ -367,7 +382,7 @@ pub fn segment(
         VoidDetection::AtOrBelow(g) => Some(g),
     };
     let rim = match void_level {
-        Some(vl) => passes::void_rim_indices(&plane.data, &region.bits, wu, hu, vl, s.rim_px),
+        Some(vl) => passes::void_rim_indices(&plane.data, bits, wu, hu, vl, s.rim_px),
         None => Vec::new(),
     };
     let min_measured = void_level.map_or(0, |vl| u32::from(vl) + 1);
@@ -377,14 +392,12 @@ pub fn segment(
     let splits_bin =
         void_level.is_some_and(|vl| (usize::from(vl) + 1) % (1usize << s.bin_shift) != 0);
     let hist = if splits_bin {
-        let lut = vec![0u8; (usize::from(u16::MAX) >> s.bin_shift) + 1];
         let measured = passes::Classifier {
             data: &plane.data,
-            region: &region.bits,
+            region: bits,
             width: wu,
             min_measured,
-            lut: &lut,
-            shift: s.bin_shift,
+            tops: &[],
             rim: &rim,
         };
         let counts = passes::core_counts(
@@ -443,11 +456,10 @@ pub fn segment(
     control.step(0.3)?;
     let base = passes::Classifier {
         data: &plane.data,
-        region: &region.bits,
+        region: bits,
         width: wu,
         min_measured,
-        lut: &[],
-        shift: s.bin_shift,
+        tops: &[],
         rim: &rim,
     };
     let mut warnings = Vec::new();
@@ -455,11 +467,14 @@ pub fn segment(
     // on the fly) and the blur-consistent level of the thinner phase; the default level choice
     // then moves to the half-way point between them.
     let pure = if s.classes == 2 {
-        let lut = passes::full_lut(&hist, &levels);
+        let tops = passes::class_tops(&hist, &levels);
         // 16-bit levels binned by 16 (0.02% of full scale) keep the tables in cache.
         let shift = if plane.max_value > 255 { 4 } else { 0 };
         let counts = passes::core_counts(
-            &passes::Classifier { lut: &lut, ..base },
+            &passes::Classifier {
+                tops: &tops,
+                ..base
+            },
             &plane.data,
             wu,
             hu,
@@ -495,10 +510,16 @@ pub fn segment(
         .tile_px
         .unwrap_or_else(|| (w.min(h) / 8).clamp(32, 512))
         .max(1);
-    let lut = passes::full_lut(&hist, &levels);
+    let tops = passes::class_tops(&hist, &levels);
     let mut class_map = vec![0u8; plane.len()];
     let (mut tiles, mut class_gray) = passes::tiles_pass(
-        passes::TileMap::Fill(&mut class_map, &passes::Classifier { lut: &lut, ..base }),
+        passes::TileMap::Fill(
+            &mut class_map,
+            &passes::Classifier {
+                tops: &tops,
+                ..base
+            },
+        ),
         &plane.data,
         wu,
         s.classes,
@@ -814,7 +835,7 @@ pub fn exclude_voids_with_rim(
                 }
             }
         });
-    let rim = passes::void_rim_indices(&plane.data, &region.bits, w, h, void_level, rim_px);
+    let rim = passes::void_rim_indices(&plane.data, Some(&region.bits), w, h, void_level, rim_px);
     let mut values = Vec::with_capacity(rim.len());
     for i in rim {
         if class_map[i] != NOT_MEASURED {
@@ -1172,7 +1193,7 @@ mod tests {
         let region = roi.rasterise(97, 83).unwrap();
         let (vl, level) = (8000u16, 38000u16);
         let hist = Histogram::of_region(&plane, Some(&region.bits), 0).unwrap();
-        let lut = passes::full_lut(&hist, &[level]);
+        let tops = passes::class_tops(&hist, &[level]);
         let mut map: Vec<u8> = plane
             .data
             .iter()
@@ -1180,14 +1201,13 @@ mod tests {
             .map(|(&v, &r)| if r { u8::from(v > level) } else { NOT_MEASURED })
             .collect();
         let _ = exclude_voids_with_rim(&plane, &region, vl, 2, &mut map);
-        let rim = passes::void_rim_indices(&plane.data, &region.bits, 97, 83, vl, 2);
+        let rim = passes::void_rim_indices(&plane.data, Some(&region.bits), 97, 83, vl, 2);
         let fly = passes::Classifier {
             data: &plane.data,
-            region: &region.bits,
+            region: Some(&region.bits),
             width: 97,
             min_measured: u32::from(vl) + 1,
-            lut: &lut,
-            shift: 0,
+            tops: &tops,
             rim: &rim,
         };
         let mut filled = vec![0u8; map.len()];
@@ -1250,6 +1270,51 @@ mod tests {
         assert!(seg.excluded_fraction > 0.0);
         let direct = Histogram::of_class_map(&plane, &seg.class_map, 0).unwrap();
         assert_eq!(seg.histogram.counts(), direct.counts());
+    }
+
+    #[test]
+    fn class_tops_classify_every_value_as_the_bin_table() {
+        // Source: definition of classes on a histogram (`Histogram::class_bins`): counting the
+        // tops below a value must give the class of its bin for every u16 value, any binning,
+        // including levels in one bin and levels out of order.
+        for shift in [0u32, 3, 4, 8] {
+            let max = u16::MAX;
+            let h = Histogram::from_counts(vec![1; (usize::from(max) >> shift) + 1], shift, max)
+                .unwrap();
+            for levels in [
+                vec![1000u16],
+                vec![17, 40000, 40001],
+                vec![300, 200],
+                vec![0, 65535],
+            ] {
+                let lut = passes::full_lut(&h, &levels);
+                let tops = passes::class_tops(&h, &levels);
+                for v in 0..=u16::MAX {
+                    let by_tops = tops.iter().filter(|&&t| v > t).count() as u8;
+                    assert_eq!(
+                        by_tops,
+                        lut[usize::from(v) >> shift],
+                        "{levels:?} {shift} {v}"
+                    );
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn whole_image_without_a_mask_equals_a_full_mask() {
+        // Source: definition; no region and a region covering every pixel are the same job.
+        let spec = SyntheticSpec {
+            width: 90,
+            height: 70,
+            ..SyntheticSpec::default()
+        };
+        let plane = spec.generate().plane(90, 70, true).unwrap();
+        let s = SegmentSettings::default();
+        let with = segment(&plane, &Mask::full(90, 70), &s, &Control::none()).unwrap();
+        let without = segment_region(&plane, None, &s, &Control::none()).unwrap();
+        assert!(with.void_level.is_some(), "voids exercised");
+        assert_eq!(with, without);
     }
 
     #[test]
