@@ -67,7 +67,9 @@ pub fn messages(view: &View<'_>) -> Vec<Message> {
                     .iter()
                     .position(|m| note.starts_with(&format!("{}:", m.label)))
             });
-            let (stage, severity) = if micrograph.is_some() {
+            let (stage, severity) = if micrograph.is_some() && note.contains(" hand edits cover ") {
+                (Stage::Phases, Severity::Note)
+            } else if micrograph.is_some() {
                 (Stage::Phases, Severity::Warning)
             } else if note.starts_with("spot ") {
                 (Stage::Analyses, Severity::Warning)

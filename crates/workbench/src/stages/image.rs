@@ -61,6 +61,8 @@ pub struct ImageStage {
     pub show_region: bool,
     /// Outline the hand edits.
     pub show_edits: bool,
+    /// Draw the point count (the Phases stage's; the Image stage leaves it out).
+    pub show_points: bool,
     /// The active tool.
     pub tool: Tool,
     /// Phase the hand tools give pixels to (`None`: erase back to automatic).
@@ -94,6 +96,7 @@ impl Default for ImageStage {
             opacity: 0.5,
             show_region: true,
             show_edits: true,
+            show_points: false,
             tool: Tool::Pan,
             hand_phase: None,
             brush_radius_px: 4.0,
@@ -214,6 +217,7 @@ impl ImageStage {
         if matches!(self.tool, Tool::HandPolygon | Tool::Brush | Tool::Points) {
             self.set_tool(Tool::Pan);
         }
+        self.show_points = false;
         let Some(at) = view.micrograph_ref() else {
             ui.label(if view.grain.is_some() {
                 "This grain has no micrograph."
@@ -989,7 +993,7 @@ impl ImageStage {
         let Some(count) = spec.point_count.as_ref() else {
             return;
         };
-        if self.tool != Tool::Points && count.marks.is_empty() {
+        if !self.show_points || (self.tool != Tool::Points && count.marks.is_empty()) {
             return;
         }
         // Take the cached points out while drawing (no copy), and put them back after.

@@ -137,6 +137,7 @@ impl PhasesStage {
             self.overlay_on = true;
             image.show_classes = true;
         }
+        image.show_points = true;
         let hover = image.canvas_ui(ui, view, true, actions);
         image.hover_line(ui, view, hover);
     }
