@@ -168,8 +168,9 @@ pub(crate) fn core_counts_in_bands(
 ) -> Vec<u64> {
     let nbins = (usize::from(max_value) >> shift) + 1;
     let cap = nbins - 1;
+    // Eight dump cells taken in turn, so runs of non-core pixels do not queue on one counter.
     let dump = classes * nbins;
-    let table = dump + 1;
+    let table = dump + 8;
     // Counts in u32 (half the cache footprint of u64), moved into the u64 totals before
     // they could overflow; everything not a core of a class lands in one dump cell.
     let flush = |acc: &mut (Vec<u64>, Vec<u32>, u64)| {
@@ -192,12 +193,12 @@ pub(crate) fn core_counts_in_bands(
             acc.2 += w as u64;
             let vals = &data[y * w..(y + 1) * w];
             let part = &mut acc.1;
-            for (&c, &v) in row.iter().zip(vals) {
+            for (x, (&c, &v)) in row.iter().zip(vals).enumerate() {
                 let bin = (usize::from(v) >> shift).min(cap);
                 let k = if usize::from(c) < classes {
                     usize::from(c) * nbins + bin
                 } else {
-                    dump
+                    dump + (x & 7)
                 };
                 part[k] += 1;
             }
@@ -264,20 +265,46 @@ pub(crate) fn fold_core_rows<A: Send>(
         .reduce(&init, merge)
 }
 
-/// Per-class pixel counts and grey sums of one row segment, added into `counts` and `sums`.
+/// Per-class pixel counts and grey sums of one row segment, added into `counts` and `sums`
+/// (one entry per class; other values count as not measured).
 fn segment_stats(cls: &[u8], vals: &[u16], counts: &mut [u64], sums: &mut [u64]) {
-    // u32 lanes: 4096 values of at most 65535 cannot overflow.
-    for (cc, vv) in cls.chunks(4096).zip(vals.chunks(4096)) {
-        for (k, (n_out, s_out)) in counts.iter_mut().zip(sums.iter_mut()).enumerate() {
-            let k = k as u8;
-            let (mut n, mut s) = (0u32, 0u32);
-            for (&c, &v) in cc.iter().zip(vv) {
-                let m = u32::from(c == k);
-                n += m;
-                s += m * u32::from(v);
+    match counts.len() {
+        2 => segment_stats_n::<2>(cls, vals, counts, sums),
+        3 => segment_stats_n::<3>(cls, vals, counts, sums),
+        4 => segment_stats_n::<4>(cls, vals, counts, sums),
+        _ => {
+            // u32 lanes: 4096 values of at most 65535 cannot overflow.
+            for (cc, vv) in cls.chunks(4096).zip(vals.chunks(4096)) {
+                for (k, (n_out, s_out)) in counts.iter_mut().zip(sums.iter_mut()).enumerate() {
+                    let k = k as u8;
+                    let (mut n, mut s) = (0u32, 0u32);
+                    for (&c, &v) in cc.iter().zip(vv) {
+                        let m = c == k;
+                        n += u32::from(m);
+                        s += if m { u32::from(v) } else { 0 };
+                    }
+                    *n_out += u64::from(n);
+                    *s_out += u64::from(s);
+                }
             }
-            *n_out += u64::from(n);
-            *s_out += u64::from(s);
+        }
+    }
+}
+
+/// [`segment_stats`] for `N` classes in one pass over the segment.
+fn segment_stats_n<const N: usize>(cls: &[u8], vals: &[u16], counts: &mut [u64], sums: &mut [u64]) {
+    for (cc, vv) in cls.chunks(4096).zip(vals.chunks(4096)) {
+        let (mut n, mut s) = ([0u32; N], [0u32; N]);
+        for (&c, &v) in cc.iter().zip(vv) {
+            for k in 0..N {
+                let m = c == k as u8;
+                n[k] += u32::from(m);
+                s[k] += if m { u32::from(v) } else { 0 };
+            }
+        }
+        for k in 0..N {
+            counts[k] += u64::from(n[k]);
+            sums[k] += u64::from(s[k]);
         }
     }
 }
@@ -557,22 +584,23 @@ pub(crate) fn small_feature_changes_bounded(
                 let up = &src[(y - 1) * w..y * w];
                 let mid = &src[y * w..(y + 1) * w];
                 let dn = &src[(y + 1) * w..(y + 2) * w];
-                let centre = &mid[1..w - 1];
-                let counts = &mut n[1..w - 1];
-                counts.fill(0);
-                for nb in [
-                    &up[..w - 2],
-                    &up[1..w - 1],
-                    &up[2..],
-                    &mid[..w - 2],
-                    &mid[2..],
-                    &dn[..w - 2],
-                    &dn[1..w - 1],
-                    &dn[2..],
-                ] {
-                    for ((o, &a), &b) in counts.iter_mut().zip(nb).zip(centre) {
-                        *o += u8::from(a == b);
-                    }
+                // All eight neighbours in one pass (slices of one length, so the loop has no
+                // bounds checks and vectorises).
+                let m = w - 2;
+                let (c0, counts) = (&mid[1..w - 1], &mut n[1..w - 1]);
+                let (u0, u1, u2) = (&up[..m], &up[1..m + 1], &up[2..m + 2]);
+                let (m0, m2) = (&mid[..m], &mid[2..m + 2]);
+                let (d0, d1, d2) = (&dn[..m], &dn[1..m + 1], &dn[2..m + 2]);
+                for i in 0..m {
+                    let c = c0[i];
+                    counts[i] = u8::from(u0[i] == c)
+                        + u8::from(u1[i] == c)
+                        + u8::from(u2[i] == c)
+                        + u8::from(m0[i] == c)
+                        + u8::from(m2[i] == c)
+                        + u8::from(d0[i] == c)
+                        + u8::from(d1[i] == c)
+                        + u8::from(d2[i] == c);
                 }
                 check(0, &mut out);
                 for (ci, chunk) in counts.chunks(64).enumerate() {
