@@ -139,7 +139,23 @@ impl Roi {
             column: e.column(),
             message: e.to_string(),
         })?;
-        roi.validate()?;
+        // A polygon error names the file and the line of its list, like a syntax error.
+        roi.validate().map_err(|e| match e {
+            MicrographError::InvalidPolygon {
+                list,
+                index,
+                message,
+            } => {
+                let (line, column) = key_location(text, list);
+                MicrographError::RoiSyntax {
+                    path: path.to_path_buf(),
+                    line,
+                    column,
+                    message: format!("{list} polygon {index}: {message}"),
+                }
+            }
+            other => other,
+        })?;
         Ok(roi)
     }
 
@@ -185,6 +201,20 @@ impl Roi {
             bits,
         })
     }
+}
+
+/// Line and column (1-based) of the first `"key"` in JSON text; 1:1 when it is not found.
+fn key_location(text: &str, key: &str) -> (usize, usize) {
+    let Some(at) = text.find(&format!("\"{key}\"")) else {
+        return (1, 1);
+    };
+    let before = &text[..at];
+    let line = before.matches('\n').count() + 1;
+    let column = before[before.rfind('\n').map_or(0, |i| i + 1)..]
+        .chars()
+        .count()
+        + 1;
+    (line, column)
 }
 
 /// A binary mask over an image (true = in the region), row-major.
@@ -247,6 +277,16 @@ mod tests {
         let err = Roi::from_json_str(r#"{"include": [[[1, 2], [3, 4]]]}"#, Path::new("r.json"))
             .unwrap_err();
         assert!(err.to_string().contains("include polygon 0"), "{err}");
+        let err = Roi::from_json_str(
+            "{\"include\": [],\n \"exclude\": [[[1, 2], [3, 4]]]}",
+            Path::new("r.json"),
+        )
+        .unwrap_err();
+        assert!(
+            err.to_string()
+                .starts_with("r.json:2:2: region of interest: exclude polygon 0"),
+            "{err}"
+        );
     }
 }
 
