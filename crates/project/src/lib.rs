@@ -23,8 +23,10 @@ pub use document::{
     PointCount, PointGrid, PointMark, Project, Sample, Settings, SpotEdit,
 };
 pub use io::{
-    ProjectError, autosave_path, autosave_project, load_project, parse_project, pending_autosave,
-    project_json, save_project, write_atomically,
+    FileRef, MissingFile, OpenedProject, ProjectError, RelinkError, SaveSink, autosave_path,
+    autosave_project, load_project, missing_files, open_project, parse_project, pending_autosave,
+    project_json, relink_file, save_project, save_project_with, write_atomically,
+    write_atomically_with,
 };
 pub use run::{
     GrainFailure, GrainResult, HandEditSummary, MicrographResult, PairResult, PhaseResult, Quiet,

@@ -95,7 +95,7 @@ fn saves_are_atomic_and_leave_no_temporary_files() {
     assert!(names.iter().all(|n| !n.ends_with(".tmp")), "{names:?}");
     // A missing folder is an error naming the path, not a panic.
     let err = save_project(&p, &dir.join("no/such/dir/x.json")).expect_err("no folder");
-    assert!(matches!(err, ProjectError::Io { .. }));
+    assert!(matches!(err, ProjectError::Save { .. }));
 }
 
 #[test]
