@@ -91,8 +91,15 @@ pub fn trapezoids(points: &[[f64; 2]]) -> Vec<[[f64; 2]; 4]> {
 const PT: f32 = 1.4;
 
 /// Draw a figure. `small` makes a fixed, non-interactive plot for the result card. Hovering a
-/// Cartesian figure reads its two axes.
-pub fn figure_ui(ui: &mut Ui, id: &str, fig: &Figure, height: f32, small: bool) {
+/// Cartesian figure reads its two axes. Returns the figure coordinates under the pointer, if
+/// it is over the plot (the Temperature stage turns them into a ternary readout).
+pub fn figure_ui(
+    ui: &mut Ui,
+    id: &str,
+    fig: &Figure,
+    height: f32,
+    small: bool,
+) -> Option<[f64; 2]> {
     let dark = ui.visuals().dark_mode;
     let mut plot = Plot::new(id).height(height).show_background(true);
     match &fig.frame {
@@ -140,7 +147,7 @@ pub fn figure_ui(ui: &mut Ui, id: &str, fig: &Figure, height: f32, small: bool) 
             .allow_scroll(false)
             .allow_boxed_zoom(false);
     }
-    plot.show(ui, |pui| {
+    let shown = plot.show(ui, |pui| {
         for item in &fig.items {
             match item {
                 Item::Line(l) => pui.line(
@@ -228,6 +235,10 @@ pub fn figure_ui(ui: &mut Ui, id: &str, fig: &Figure, height: f32, small: bool) 
             }
         }
     });
+    let hovered = shown.response.hover_pos().map(|p| {
+        let v = shown.transform.value_from_position(p);
+        [v.x, v.y]
+    });
     if !small && !fig.legend.is_empty() {
         ui.horizontal_wrapped(|ui| {
             for entry in &fig.legend {
@@ -244,6 +255,7 @@ pub fn figure_ui(ui: &mut Ui, id: &str, fig: &Figure, height: f32, small: bool) 
             }
         });
     }
+    hovered
 }
 
 /// The figures of the selected grain.

@@ -108,7 +108,9 @@ pub fn ui(ui: &mut Ui, view: &View<'_>, actions: &mut Vec<Action>) {
         if result.system == reintegration::MineralSystem::Feldspar {
             ui.add_space(6.0);
             match view.figures.filter(|f| f.grain == Some(at)).map(|f| &f.solvus) {
-                Some(Ok(fig)) => figures::figure_ui(ui, "card-solvus", fig, 220.0, true),
+                Some(Ok(fig)) => {
+                    figures::figure_ui(ui, "card-solvus", fig, 220.0, true);
+                }
                 Some(Err(e)) => {
                     ui.weak(format!("no solvus figure: {e}"));
                 }

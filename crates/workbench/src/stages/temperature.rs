@@ -16,6 +16,55 @@ use crate::figures::figure_ui;
 pub struct TemperatureStage {
     /// Draw the other built-in models' solvi too.
     pub compare: bool,
+    /// The last ternary readout: model, pressure and composition (rounded), and its text.
+    readout: Option<(String, String)>,
+}
+
+/// Composition (Ab, Or, An) of a point of the ternary figure, when it lies in the triangle:
+/// the inverse of the figure's barycentric placement (`x = X_Or + X_An/2`, `y = (√3/2) X_An`).
+pub fn ternary_composition(p: [f64; 2]) -> Option<[f64; 3]> {
+    const H: f64 = 0.866_025_403_784_438_6;
+    let an = p[1] / H;
+    let or = p[0] - 0.5 * an;
+    let ab = 1.0 - or - an;
+    let eps = 1e-9;
+    (ab >= -eps && or >= -eps && an >= -eps).then(|| [ab.max(0.0), or.max(0.0), an.max(0.0)])
+}
+
+/// What the ternary readout says about a composition: the composition and the minimum
+/// crystallisation temperature of a feldspar of that bulk under the model and pressure.
+pub fn ternary_readout(model_id: &str, pressure_kbar: f64, x: [f64; 3]) -> String {
+    use reintegration::{BulkThermometer, SolvusThermometer, TemperatureOutcome};
+    let head = format!("Ab {:.3}  Or {:.3}  An {:.3}", x[0], x[1], x[2]);
+    let model = match SolutionModel::builtin(model_id) {
+        Ok(m) => m,
+        Err(e) => return format!("{head}: {e}"),
+    };
+    let binary = x[2] > 0.0 && model.kind == solvus::ModelKind::Binary;
+    let t = SolvusThermometer { model }.min_temperature(&x, pressure_kbar);
+    let what = match t {
+        TemperatureOutcome::Value { temperature_c } => {
+            format!(
+                "one feldspar above {temperature_c:.0} °C (minimum crystallisation temperature)"
+            )
+        }
+        TemperatureOutcome::StableAtEveryTemperature => {
+            "one feldspar at every temperature of the model (outside the solvus)".into()
+        }
+        TemperatureOutcome::AboveRange => {
+            "inside the solvus even at the top of the model's range".into()
+        }
+        TemperatureOutcome::Refused { reason } => format!("no temperature: {reason}"),
+        _ => "no temperature".into(),
+    };
+    format!(
+        "{head} — {what}, {model_id} at {pressure_kbar} kbar{}",
+        if binary {
+            " (binary model: An projected out)"
+        } else {
+            ""
+        }
+    )
 }
 
 fn figure_with_export(
@@ -25,7 +74,7 @@ fn figure_with_export(
     title: &str,
     height: f32,
     actions: &mut Vec<Action>,
-) {
+) -> Option<[f64; 2]> {
     ui.horizontal(|ui| {
         ui.label(egui::RichText::new(title).strong());
         if ui
@@ -44,12 +93,15 @@ fn figure_with_export(
         Some(Ok(fig)) => figure_ui(ui, kind.name(), fig, height, false),
         Some(Err(e)) => {
             ui.weak(format!("not drawn: {e}"));
+            None
         }
         None if view.figures.is_some_and(|f| f.grain == view.grain) => {
             ui.weak("computed for feldspar grains with a result");
+            None
         }
         None => {
             ui.spinner();
+            None
         }
     }
 }
@@ -185,7 +237,7 @@ impl TemperatureStage {
                 h,
                 actions,
             );
-            figure_with_export(
+            let hovered = figure_with_export(
                 &mut cols[1],
                 view,
                 FigureKind::Ternary,
@@ -193,6 +245,28 @@ impl TemperatureStage {
                 h,
                 actions,
             );
+            let settings = &view.doc.project.settings;
+            match hovered.and_then(ternary_composition) {
+                Some(x) => {
+                    // Rounded to the readout's digits: the temperature is found again only when
+                    // the pointer moves to another composition.
+                    let key = format!(
+                        "{}|{}|{:.3}|{:.3}|{:.3}",
+                        settings.feldspar_model, settings.pressure_kbar, x[0], x[1], x[2]
+                    );
+                    if self.readout.as_ref().is_none_or(|(k, _)| *k != key) {
+                        let r = (x.map(|v| (v * 1000.0).round() / 1000.0), settings);
+                        let text = ternary_readout(&r.1.feldspar_model, r.1.pressure_kbar, r.0);
+                        self.readout = Some((key, text));
+                    }
+                    if let Some((_, text)) = &self.readout {
+                        cols[1].label(text);
+                    }
+                }
+                None => {
+                    cols[1].weak("Point at the triangle to read a composition and its minimum crystallisation temperature.");
+                }
+            }
         });
         ui.separator();
         let Some(r) = result else {
@@ -281,5 +355,50 @@ impl TemperatureStage {
                 figure_with_export(ui, view, FigureKind::Histogram, "Minimum-temperature draws", h, actions);
             }
         });
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_readout_inverts_the_figures_placement() {
+        // Round trip through the figure's own placement (project::figure::ternary_xy).
+        for x in [
+            [0.45, 0.5, 0.05],
+            [1.0, 0.0, 0.0],
+            [0.0, 0.0, 1.0],
+            [0.2, 0.3, 0.5],
+        ] {
+            let p = project::figure::ternary_xy(x[0], x[1], x[2]);
+            let back = ternary_composition(p).expect("inside");
+            for (a, b) in back.iter().zip(x) {
+                assert!((a - b).abs() < 1e-12, "{back:?} {x:?}");
+            }
+        }
+        assert!(
+            ternary_composition([0.9, 0.8]).is_none(),
+            "outside the triangle"
+        );
+        assert!(
+            ternary_composition([0.5, -0.1]).is_none(),
+            "below the Ab-Or edge"
+        );
+    }
+
+    #[test]
+    fn the_readout_gives_the_solvus_temperature_of_a_limb_composition() {
+        // Source: design §3.3 check values (derived from Haselton et al. 1983 as used by
+        // Fuhrman & Lindsley): at 1 kbar the K-rich limb of the 600 °C isotherm is at
+        // X_Or 0.6151, so that bulk first meets the solvus at 600 °C (4-digit X_Or: ±0.5 °C).
+        let text = ternary_readout("haselton1983", 1.0, [0.3849, 0.6151, 0.0]);
+        assert!(text.contains("above 600 °C"), "{text}");
+        // A sodic feldspar far from the solvus at this pressure is one phase at every
+        // temperature of the model, or has its temperature far below; either way not 600.
+        let far = ternary_readout("haselton1983", 1.0, [0.99, 0.01, 0.0]);
+        assert!(!far.contains("above 600 °C"), "{far}");
+        // An binary model with An says it projects.
+        assert!(ternary_readout("haselton1983", 1.0, [0.4, 0.5, 0.1]).contains("projected"));
     }
 }
