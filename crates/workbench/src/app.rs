@@ -6,7 +6,7 @@ use std::sync::Arc;
 
 use egui::{Key, KeyboardShortcut, Modifiers, Ui};
 use mineral::SpotTable;
-use project::{GrainFailure, GrainResult, RunResult};
+use project::{FileRef, GrainFailure, GrainResult, MissingFile, RunResult};
 use reintegration::MineralSystem;
 
 use crate::command::Command;
@@ -120,6 +120,10 @@ pub enum Action {
     ImportAnalysesPath(PathBuf),
     /// Ask for a file to write the report to (Markdown or HTML).
     ExportReport,
+    /// Ask where a missing file (micrograph, analyses file) is now.
+    Relink(FileRef),
+    /// Point a project entry at this file.
+    RelinkPath(FileRef, PathBuf),
 }
 
 /// The shortcuts of the common actions (shown in menus and tooltips).
@@ -207,6 +211,8 @@ pub struct View<'a> {
     pub figures: Option<&'a FigureSet>,
     /// Spot analyses read from the project's files.
     pub spot_tables: &'a [(MineralSystem, Result<SpotTable, String>)],
+    /// Files the project names that are not there.
+    pub missing: &'a [MissingFile],
 }
 
 impl View<'_> {
@@ -218,6 +224,13 @@ impl View<'_> {
             grain,
             micrograph: self.micrograph,
         })
+    }
+
+    /// The missing-file entry of a micrograph, if its file is not there.
+    pub fn missing_micrograph(&self, at: MicrographRef) -> Option<&MissingFile> {
+        self.missing
+            .iter()
+            .find(|m| Document::micrograph_of(m.which) == Some(at))
     }
 
     /// Result of a grain.
@@ -260,6 +273,9 @@ pub struct Workbench {
     results_serial: u64,
     spot_tables: Vec<(MineralSystem, Result<SpotTable, String>)>,
     spot_tables_for: Vec<project::AnalysisFile>,
+    missing: Vec<MissingFile>,
+    /// Document revision and file the missing list was made for, and when (seconds).
+    missing_for: Option<(u64, Option<PathBuf>, f64)>,
     report_job: Option<std::sync::mpsc::Receiver<String>>,
     ctx_for_jobs: Option<egui::Context>,
     image_stage: stages::image::ImageStage,
@@ -297,6 +313,8 @@ impl Workbench {
             results_serial: 0,
             spot_tables: Vec::new(),
             spot_tables_for: Vec::new(),
+            missing: Vec::new(),
+            missing_for: None,
             report_job: None,
             ctx_for_jobs: None,
             image_stage: Default::default(),
@@ -436,6 +454,7 @@ impl Workbench {
                 self.image_job = None;
                 self.grain = self.doc.grains().first().copied();
                 self.micrograph = 0;
+                self.missing_for = None;
                 self.status = format!("opened {}", path.display());
                 self.restore_offer = project::pending_autosave(&path);
                 self.load_spot_tables();
@@ -642,6 +661,53 @@ impl Workbench {
         }
     }
 
+    /// The files the open project names that are not there (as the message strip lists them).
+    pub fn missing_files(&self) -> &[MissingFile] {
+        &self.missing
+    }
+
+    /// Make the list of missing files again when the document changed, and every few seconds
+    /// (a file put back in place, or a disk mounted, clears its message).
+    fn check_missing(&mut self, now: f64) {
+        const EVERY_S: f64 = 3.0;
+        let fresh = self.missing_for.as_ref().is_some_and(|(rev, path, at)| {
+            *rev == self.doc.revision && *path == self.doc.path && now - at < EVERY_S
+        });
+        if !fresh {
+            self.missing = self.doc.missing_files();
+            self.missing_for = Some((self.doc.revision, self.doc.path.clone(), now));
+        }
+    }
+
+    /// Point a project entry at a file's new place (an undoable edit), then compute what it
+    /// feeds: the micrograph's grain, or every grain for an analyses file.
+    pub fn relink(&mut self, which: FileRef, path: &std::path::Path, ctx: &egui::Context) {
+        let what = self
+            .missing
+            .iter()
+            .find(|m| m.which == which)
+            .map_or_else(|| "the file".to_string(), |m| m.what.clone());
+        match self.doc.apply(Command::RelinkFile {
+            project_file: self.doc.path_or_default(),
+            which,
+            new_path: path.to_path_buf(),
+        }) {
+            Ok(()) => {
+                self.status = format!("relinked {what} to {}", path.display());
+                self.missing_for = None;
+                match Document::micrograph_of(which) {
+                    Some(at) => {
+                        self.grain = Some(at.grain);
+                        self.micrograph = at.micrograph;
+                        self.start_run(ctx, Some(at.grain));
+                    }
+                    None => self.start_run(ctx, None),
+                }
+            }
+            Err(e) => self.status = format!("not relinked: {e}"),
+        }
+    }
+
     /// Whether the figures of the selected grain are drawn and current.
     pub fn figures_ready(&self) -> bool {
         self.figure_job.is_none() && self.figures.as_ref().is_some_and(|f| f.grain == self.grain)
@@ -682,6 +748,15 @@ impl Workbench {
                 self.prompt = Some(PathPrompt::new(PromptPurpose::ImportAnalyses, folder));
             }
             Action::ImportAnalysesPath(p) => self.import_analyses(&p),
+            Action::Relink(which) => {
+                let start = self
+                    .missing
+                    .iter()
+                    .find(|m| m.which == which)
+                    .map(|m| m.resolved.clone());
+                self.prompt = Some(PathPrompt::new(PromptPurpose::Relink(which), start));
+            }
+            Action::RelinkPath(which, path) => self.relink(which, &path, ctx),
             Action::ExportReport => {
                 let folder = self
                     .doc
@@ -949,6 +1024,7 @@ impl Workbench {
         if self.doc.project.analysis_files != self.spot_tables_for {
             self.load_spot_tables();
         }
+        self.check_missing(ctx.input(|i| i.time));
         if let Some(rx) = &self.report_job {
             match rx.try_recv() {
                 Ok(message) => {
@@ -1035,6 +1111,7 @@ impl Workbench {
                 .map(|(_, e)| e.as_str()),
             figures: self.figures.as_ref(),
             spot_tables: &self.spot_tables,
+            missing: &self.missing,
         };
 
         egui::Panel::top("menu").show(ui, |ui| {
@@ -1104,6 +1181,10 @@ impl Workbench {
                     self.prompt = None;
                     self.export_report(&p);
                 }
+                files::PromptOutcome::Relink(which, p) => {
+                    self.prompt = None;
+                    actions.push(Action::RelinkPath(which, p));
+                }
                 files::PromptOutcome::Cancel => self.prompt = None,
                 files::PromptOutcome::Pending => {}
             }
@@ -1133,6 +1214,7 @@ impl Workbench {
                             let path = self.doc.path.clone();
                             self.doc = Document::new(p, path);
                             self.doc.dirty = true;
+                            self.missing_for = None;
                             self.status = "restored the autosave (not yet saved)".into();
                         }
                         Err(e) => self.status = format!("could not restore: {e}"),

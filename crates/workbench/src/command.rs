@@ -9,7 +9,7 @@ use micrograph::roi::Polygon;
 use micrograph::segment::{LevelChoice, VoidDetection};
 use mineral::Oxide;
 use project::{
-    AnalysisFile, Grain, HandEdit, MicrographSpec, PointGrid, PointMark, Project, SpotEdit,
+    AnalysisFile, FileRef, Grain, HandEdit, MicrographSpec, PointGrid, PointMark, Project, SpotEdit,
 };
 use reintegration::{CompositionSpread, MineralSystem, VolumeSettings};
 
@@ -265,6 +265,17 @@ pub enum Command {
         /// Density, g/cm3.
         density_g_cm3: Option<f64>,
     },
+    /// Point a micrograph or analyses file entry at the file's new place (a file moved or
+    /// renamed since the project was saved). Stored relative to the project's folder when the
+    /// file is inside it.
+    RelinkFile {
+        /// The project file the stored path is relative to.
+        project_file: PathBuf,
+        /// Which entry.
+        which: FileRef,
+        /// The file's new place.
+        new_path: PathBuf,
+    },
 }
 
 fn micrograph(project: &mut Project, at: MicrographRef) -> Result<&mut MicrographSpec, String> {
@@ -414,6 +425,7 @@ impl Command {
                 Some(d) => format!("density {d} g/cm3"),
                 None => "density from molar volume".into(),
             },
+            Command::RelinkFile { new_path, .. } => format!("relink to {}", new_path.display()),
         }
     }
 
@@ -779,6 +791,14 @@ impl Command {
                     .get_mut(phase)
                     .ok_or("that phase is no longer in the grain")?
                     .density_g_cm3 = density_g_cm3;
+            }
+            Command::RelinkFile {
+                project_file,
+                which,
+                new_path,
+            } => {
+                project::relink_file(project, &project_file, which, &new_path)
+                    .map_err(|e| e.to_string())?;
             }
         }
         Ok(())

@@ -2,7 +2,7 @@
 
 use std::path::{Path, PathBuf};
 
-use project::{Grain, MicrographSpec, Project, ProjectError, Sample};
+use project::{FileRef, Grain, MicrographSpec, MissingFile, Project, ProjectError, Sample};
 
 use crate::command::Command;
 
@@ -38,6 +38,9 @@ pub struct Document {
     undo: Vec<(Project, String)>,
     redo: Vec<(Project, String)>,
     merge: Option<String>,
+    /// The files found missing when the project was opened (they carry the project line that
+    /// names each; a path relinked since has no line in the file on disk).
+    opened_missing: Vec<MissingFile>,
 }
 
 impl Document {
@@ -51,16 +54,50 @@ impl Document {
             undo: Vec::new(),
             redo: Vec::new(),
             merge: None,
+            opened_missing: Vec::new(),
         }
     }
 
-    /// Read a project file.
+    /// Read a project file. Files it names that are not there (micrographs, analyses files) do
+    /// not stop it from opening: see [`Self::missing_files`].
     ///
     /// # Errors
     /// The project's own error, with file, line and column.
     pub fn open(path: &Path) -> Result<Self, ProjectError> {
-        let project = project::load_project(path)?;
-        Ok(Self::new(project, Some(path.to_path_buf())))
+        let opened = project::open_project(path)?;
+        let mut doc = Self::new(opened.project, Some(path.to_path_buf()));
+        doc.opened_missing = opened.missing;
+        Ok(doc)
+    }
+
+    /// The files the document names that are not there now, in document order, each with the
+    /// line of the project file naming it when that path is the one read from the file.
+    /// (Looks at the file system: call it when the document changes, not every frame.)
+    pub fn missing_files(&self) -> Vec<MissingFile> {
+        let mut list = project::missing_files(&self.project, &self.path_or_default(), None);
+        for m in &mut list {
+            m.line = self
+                .opened_missing
+                .iter()
+                .find(|o| o.which == m.which && o.stored == m.stored)
+                .and_then(|o| o.line);
+        }
+        list
+    }
+
+    /// The micrograph a file entry names, if it is one.
+    pub fn micrograph_of(which: FileRef) -> Option<MicrographRef> {
+        match which {
+            FileRef::Micrograph {
+                sample,
+                grain,
+                micrograph,
+            } => Some(MicrographRef {
+                grain: GrainRef { sample, grain },
+                micrograph,
+            }),
+            _ => None,
+        }
     }
 
     /// Apply an edit, keeping the previous state for undo.

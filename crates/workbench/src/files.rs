@@ -62,6 +62,8 @@ pub enum PromptPurpose {
     ImportAnalyses,
     /// Write the report.
     Report,
+    /// Point a project entry whose file is missing at the file's new place.
+    Relink(project::FileRef),
 }
 
 /// What the prompt ended with.
@@ -80,6 +82,8 @@ pub enum PromptOutcome {
     ImportAnalyses(PathBuf),
     /// Write the report to this file.
     Report(PathBuf),
+    /// Point the entry at this file.
+    Relink(project::FileRef, PathBuf),
 }
 
 /// A small window with a path field and a "Browse…" button.
@@ -119,13 +123,20 @@ impl PathPrompt {
                     PromptPurpose::Report => {
                         rfd::FileDialog::new().add_filter("Report", &["html", "md"])
                     }
+                    PromptPurpose::Relink(project::FileRef::AnalysisFile { .. }) => {
+                        rfd::FileDialog::new().add_filter("Spot analyses", &["csv", "tsv", "txt"])
+                    }
+                    PromptPurpose::Relink(_) => rfd::FileDialog::new()
+                        .add_filter("Micrograph", &["png", "tif", "tiff", "jpg", "jpeg", "bmp"]),
                     _ => rfd::FileDialog::new().add_filter("Consolute project", &["json"]),
                 };
                 if let Some(dir) = start.parent().filter(|d| d.is_dir()) {
                     dialog = dialog.set_directory(dir);
                 }
                 let chosen = match purpose {
-                    PromptPurpose::Open | PromptPurpose::ImportAnalyses => dialog.pick_file(),
+                    PromptPurpose::Open
+                    | PromptPurpose::ImportAnalyses
+                    | PromptPurpose::Relink(_) => dialog.pick_file(),
                     PromptPurpose::SaveAs | PromptPurpose::Export(_) | PromptPurpose::Report => {
                         dialog.save_file()
                     }
@@ -163,6 +174,7 @@ impl PathPrompt {
             PromptPurpose::Export(_) => "Export figure",
             PromptPurpose::ImportAnalyses => "Import spot analyses",
             PromptPurpose::Report => "Export report",
+            PromptPurpose::Relink(_) => "Relink a missing file",
         };
         let mut outcome = PromptOutcome::Pending;
         let mut open = true;
@@ -179,6 +191,10 @@ impl PathPrompt {
                     PromptPurpose::Report => {
                         "Report file (.html, self-contained; or .md, figures written to figures/ beside it):"
                     }
+                    PromptPurpose::Relink(project::FileRef::AnalysisFile { .. }) => {
+                        "Where the spot analyses file is now (CSV):"
+                    }
+                    PromptPurpose::Relink(_) => "Where the micrograph is now:",
                     _ => "Project file (.json):",
                 });
                 let edit = ui
@@ -206,6 +222,7 @@ impl PathPrompt {
                         PromptPurpose::SaveAs => "Save",
                         PromptPurpose::Export(_) | PromptPurpose::Report => "Export",
                         PromptPurpose::ImportAnalyses => "Import",
+                        PromptPurpose::Relink(_) => "Relink",
                     };
                     if ui.button(verb).clicked() || entered {
                         let path = PathBuf::from(self.text.trim());
@@ -213,7 +230,9 @@ impl PathPrompt {
                             self.note = Some("type a path first".into());
                         } else if matches!(
                             self.purpose,
-                            PromptPurpose::Open | PromptPurpose::ImportAnalyses
+                            PromptPurpose::Open
+                                | PromptPurpose::ImportAnalyses
+                                | PromptPurpose::Relink(_)
                         ) && !path.is_file()
                         {
                             self.note = Some(format!("{} is not a file", path.display()));
@@ -226,6 +245,9 @@ impl PathPrompt {
                                     PromptOutcome::ImportAnalyses(path)
                                 }
                                 PromptPurpose::Report => PromptOutcome::Report(path),
+                                PromptPurpose::Relink(which) => {
+                                    PromptOutcome::Relink(which, path)
+                                }
                             };
                         }
                     }

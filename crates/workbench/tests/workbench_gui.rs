@@ -42,8 +42,12 @@ fn harness(name: &str) -> Harness<'static, Workbench> {
 }
 
 fn harness_sized(name: &str, size: egui::Vec2) -> Harness<'static, Workbench> {
+    harness_at(demo_copy(name), size)
+}
+
+fn harness_at(project: PathBuf, size: egui::Vec2) -> Harness<'static, Workbench> {
     let app = Workbench::new(WorkbenchOptions {
-        project: Some(demo_copy(name)),
+        project: Some(project),
         remember_recent: false,
         run_on_open: false,
     });
@@ -708,4 +712,130 @@ fn points_are_counted_with_number_keys_and_reported_with_their_interval() {
     // 2 host of 3 counted: 0.667 with the Wilson interval 0.208-0.939 (Wilson 1927 formula;
     // SciPy binomtest(2, 3).proportion_ci(method="wilson") gives 0.2077, 0.9385).
     h.get_by_label("0.667 (0.208–0.939)");
+}
+
+/// The 1-based line of `text` holding `needle`.
+fn line_of(text: &str, needle: &str) -> usize {
+    let at = text.find(needle).expect("the needle is in the text");
+    text[..at].matches('\n').count() + 1
+}
+
+#[test]
+fn a_missing_micrograph_is_reported_relinked_computed_and_the_relink_undone() {
+    let project_file = demo_copy("relink");
+    let folder = project_file.parent().expect("folder").to_path_buf();
+    // TM-01 / g2 has one micrograph; it is moved out of images/ as if reorganised on disk.
+    std::fs::create_dir_all(folder.join("moved")).expect("make moved/");
+    let new_place = folder.join("moved").join("tm01_g2_a.png");
+    std::fs::rename(folder.join("images").join("tm01_g2_a.png"), &new_place)
+        .expect("move the micrograph");
+    let text = std::fs::read_to_string(&project_file).expect("project text");
+    let line = line_of(&text, "\"images/tm01_g2_a.png\"");
+    let mut h = harness_at(project_file.clone(), vec2(1500.0, 940.0));
+    h.state_mut().edit(Command::SetDraws(50));
+    h.run_ok();
+    // Listed once, with its path and the project line naming it, in the strip and the tree.
+    let missing = h.state().missing_files().to_vec();
+    assert_eq!(missing.len(), 1, "{missing:?}");
+    let message = h
+        .get_by_label_contains(&format!("(project line {line})"))
+        .accesskit_node()
+        .label()
+        .expect("message text");
+    assert!(message.contains("TM-01 / g2"), "{message}");
+    assert!(message.contains("tm01_g2_a.png not found"), "{message}");
+    assert_eq!(h.query_all_by_label("✖ missing").count(), 1);
+    // Relink through the typed path of the prompt (no file dialog here).
+    h.query_all_by_label("Relink…")
+        .next()
+        .expect("a relink action")
+        .click();
+    h.run_ok();
+    h.get_by_label("Where the micrograph is now:").focus();
+    h.run_ok();
+    h.key_press_modifiers(Modifiers::COMMAND, Key::A);
+    h.event(egui::Event::Text(new_place.display().to_string()));
+    h.run_ok();
+    h.get_by_role_and_label(egui::accesskit::Role::Button, "Relink")
+        .click();
+    settle(&mut h, Duration::from_secs(600));
+    let g2 = GrainRef {
+        sample: 0,
+        grain: 1,
+    };
+    let stored = |h: &Harness<'_, Workbench>| {
+        h.state()
+            .document()
+            .micrograph(MicrographRef {
+                grain: g2,
+                micrograph: 0,
+            })
+            .expect("micrograph")
+            .path
+            .clone()
+    };
+    assert_eq!(
+        stored(&h),
+        Path::new("moved").join("tm01_g2_a.png"),
+        "{}",
+        h.state().status()
+    );
+    assert!(h.state().missing_files().is_empty());
+    assert!(h.query_by_label_contains("not found").is_none());
+    assert_eq!(h.query_all_by_label("✖ missing").count(), 0);
+    // The grain is computed from the relinked micrograph.
+    let results = h.state().results().expect("results");
+    let r = results
+        .grains
+        .iter()
+        .find(|g| g.sample == "TM-01" && g.grain == "g2")
+        .expect("TM-01/g2 computed");
+    let t = r.min_temperature().expect("a minimum temperature");
+    assert!(t.p2_5 <= t.median && t.median <= t.p97_5);
+    assert!(h.state().classification_current());
+    // Undo puts the old path back, and the message with it.
+    h.key_press_modifiers(Modifiers::COMMAND, Key::Z);
+    h.run_ok();
+    assert_eq!(stored(&h), Path::new("images").join("tm01_g2_a.png"));
+    assert_eq!(h.state().missing_files().len(), 1);
+    h.get_by_label_contains(&format!("(project line {line})"));
+}
+
+#[test]
+fn a_failed_save_says_why_and_keeps_the_document_unsaved() {
+    let mut h = harness("save-fails");
+    h.state_mut().edit(Command::SetPressure(4.0));
+    h.run_ok();
+    let before = h.state().document().path.clone();
+    // Save as into a folder that does not exist.
+    let bad = std::env::temp_dir()
+        .join(format!(
+            "consolute-wb-{}-no-such-folder",
+            std::process::id()
+        ))
+        .join("project.json");
+    h.key_press_modifiers(Modifiers::COMMAND.plus(Modifiers::SHIFT), Key::S);
+    h.run_ok();
+    h.get_by_label("Project file (.json):").focus();
+    h.run_ok();
+    h.key_press_modifiers(Modifiers::COMMAND, Key::A);
+    h.event(egui::Event::Text(bad.display().to_string()));
+    h.run_ok();
+    h.get_by_role_and_label(egui::accesskit::Role::Button, "Save")
+        .click();
+    h.run_ok();
+    // The project crate's own message for that save (ProjectError::Save), shown in full.
+    let expected =
+        project::save_project(&h.state().document().project, &bad).expect_err("no such folder");
+    assert!(
+        matches!(expected, project::ProjectError::Save { .. }),
+        "{expected:?}"
+    );
+    let status = h.state().status().to_string();
+    assert!(status.contains(&expected.to_string()), "{status}");
+    h.get_by_label_contains("not saved:");
+    assert!(h.state().document().dirty);
+    assert_eq!(h.state().document().path, before);
+    assert!(!bad.exists());
+    h.get_by_label_contains("(edited)");
 }

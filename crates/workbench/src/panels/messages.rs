@@ -5,7 +5,8 @@ use egui::Ui;
 
 use super::route::failure_stage;
 use crate::app::{Action, Stage, View};
-use crate::document::MicrographRef;
+use crate::document::{Document, MicrographRef};
+use project::FileRef;
 
 /// How serious a message is.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -29,25 +30,49 @@ pub struct Message {
     pub stage: Stage,
     /// The micrograph, when it is about one.
     pub micrograph: Option<usize>,
+    /// A file the project names that is not there (offers to relink it).
+    pub file: Option<FileRef>,
 }
 
 /// The messages of the selection.
 pub fn messages(view: &View<'_>) -> Vec<Message> {
     let mut out = Vec::new();
+    // Missing files stop whatever uses them, in any grain: all are listed, first.
+    for m in view.missing {
+        let at = Document::micrograph_of(m.which);
+        out.push(Message {
+            severity: Severity::Error,
+            text: m.to_string(),
+            stage: if at.is_some() {
+                Stage::Image
+            } else {
+                Stage::Analyses
+            },
+            micrograph: at
+                .filter(|a| Some(a.grain) == view.grain)
+                .map(|a| a.micrograph),
+            file: Some(m.which),
+        });
+    }
+    let selected_missing = view
+        .micrograph_ref()
+        .is_some_and(|at| view.missing_micrograph(at).is_some());
     if let Some(e) = view.run_error {
         out.push(Message {
             severity: Severity::Error,
             text: format!("the computation stopped: {e}"),
             stage: Stage::Bulk,
             micrograph: None,
+            file: None,
         });
     }
-    if let Some(e) = view.image_error {
+    if let Some(e) = view.image_error.filter(|_| !selected_missing) {
         out.push(Message {
             severity: Severity::Error,
             text: format!("micrograph: {e}"),
             stage: Stage::Image,
             micrograph: Some(view.micrograph),
+            file: None,
         });
     }
     let Some(at) = view.grain else { return out };
@@ -58,6 +83,7 @@ pub fn messages(view: &View<'_>) -> Vec<Message> {
             text: f.message.clone(),
             stage: failure_stage(&f.message),
             micrograph: None,
+            file: None,
         });
     }
     if let Some(r) = view.result(at) {
@@ -83,6 +109,7 @@ pub fn messages(view: &View<'_>) -> Vec<Message> {
                 text: note.clone(),
                 stage,
                 micrograph,
+                file: None,
             });
         }
         if let Some(p) = &r.pair {
@@ -92,6 +119,7 @@ pub fn messages(view: &View<'_>) -> Vec<Message> {
                     text: format!("pair: {n}"),
                     stage: Stage::Temperature,
                     micrograph: None,
+                    file: None,
                 });
             }
         }
@@ -102,6 +130,7 @@ pub fn messages(view: &View<'_>) -> Vec<Message> {
             text: "the results are from before the last edit; compute again to update them".into(),
             stage: Stage::Bulk,
             micrograph: None,
+            file: None,
         });
     }
     out
@@ -132,8 +161,18 @@ pub fn ui(ui: &mut Ui, view: &View<'_>, actions: &mut Vec<Action>) {
                     let r = ui
                         .add(egui::Button::new(&m.text).frame(false))
                         .on_hover_text(format!("Go to {}", m.stage.label()));
+                    if let Some(which) = m.file
+                        && ui
+                            .small_button("Relink…")
+                            .on_hover_text("Point the project at the file's new place (undoable)")
+                            .clicked()
+                    {
+                        actions.push(Action::Relink(which));
+                    }
                     if r.clicked() {
-                        if let (Some(g), Some(micrograph)) = (view.grain, m.micrograph) {
+                        if let Some(at) = m.file.and_then(Document::micrograph_of) {
+                            actions.push(Action::SelectMicrograph(at));
+                        } else if let (Some(g), Some(micrograph)) = (view.grain, m.micrograph) {
                             actions.push(Action::SelectMicrograph(MicrographRef {
                                 grain: g,
                                 micrograph,

@@ -80,15 +80,46 @@ pub fn ui(ui: &mut Ui, view: &View<'_>, actions: &mut Vec<Action>) {
                         ui.indent(("micrographs", s, g), |ui| {
                             for (m, micro) in grain.micrographs.iter().enumerate() {
                                 let here = selected && view.micrograph == m;
-                                let r = ui
-                                    .selectable_label(here, format!("▣ {}", micro.label))
-                                    .on_hover_text(micro.path.display().to_string());
-                                if r.clicked() {
-                                    actions.push(Action::SelectMicrograph(MicrographRef {
-                                        grain: at,
-                                        micrograph: m,
-                                    }));
-                                }
+                                let at = MicrographRef {
+                                    grain: at,
+                                    micrograph: m,
+                                };
+                                ui.horizontal(|ui| {
+                                    let r = ui
+                                        .selectable_label(here, format!("▣ {}", micro.label))
+                                        .on_hover_text(micro.path.display().to_string());
+                                    if r.clicked() {
+                                        actions.push(Action::SelectMicrograph(at));
+                                    }
+                                    if let Some(missing) = view.missing_micrograph(at) {
+                                        missing_ui(ui, missing, actions);
+                                    }
+                                });
+                            }
+                        });
+                    }
+                });
+        }
+        if !view.doc.project.analysis_files.is_empty() {
+            ui.separator();
+            egui::CollapsingHeader::new("Spot analyses files")
+                .id_salt("analysis files")
+                .default_open(true)
+                .show(ui, |ui| {
+                    for (index, file) in view.doc.project.analysis_files.iter().enumerate() {
+                        ui.horizontal(|ui| {
+                            let name = file.path.file_name().map_or_else(
+                                || file.path.display().to_string(),
+                                |n| n.to_string_lossy().into_owned(),
+                            );
+                            ui.label(format!("▤ {name}"))
+                                .on_hover_text(file.path.display().to_string());
+                            let missing = view
+                                .missing
+                                .iter()
+                                .find(|m| m.which == project::FileRef::AnalysisFile { index });
+                            if let Some(missing) = missing {
+                                missing_ui(ui, missing, actions);
                             }
                         });
                     }
@@ -101,4 +132,17 @@ pub fn ui(ui: &mut Ui, view: &View<'_>, actions: &mut Vec<Action>) {
             }
         }
     });
+}
+
+/// The mark of an entry whose file is not there, with the action to relink it.
+fn missing_ui(ui: &mut Ui, missing: &project::MissingFile, actions: &mut Vec<Action>) {
+    ui.colored_label(ui.visuals().error_fg_color, "✖ missing")
+        .on_hover_text(missing.to_string());
+    if ui
+        .small_button("Relink…")
+        .on_hover_text("Point the project at the file's new place (undoable)")
+        .clicked()
+    {
+        actions.push(Action::Relink(missing.which));
+    }
 }
