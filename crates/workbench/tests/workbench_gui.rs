@@ -283,39 +283,127 @@ fn saving_writes_the_edit_atomically_and_clears_the_edited_mark() {
     assert_eq!(back.settings.pressure_kbar, 3.5);
 }
 
+/// What the smoke test presses: buttons (egui's menu entries, combo-box choices and selectable
+/// labels are buttons too) and menu items.
+fn pressables(h: &Harness<'_, Workbench>) -> Vec<(egui::accesskit::NodeId, String)> {
+    use egui::accesskit::Role;
+    h.query_all_by(|n| {
+        matches!(
+            n.role(),
+            Role::Button
+                | Role::MenuItem
+                | Role::MenuItemCheckBox
+                | Role::MenuItemRadio
+                | Role::ComboBox
+        ) && !n.is_disabled()
+    })
+    .map(|n| {
+        let n = n.accesskit_node();
+        (n.locate().0, n.label().unwrap_or_default())
+    })
+    .collect()
+}
+
+/// Press the node with this id (through accesskit, so a window in front does not take the
+/// click); false when it is not on screen now.
+fn press(h: &mut Harness<'_, Workbench>, id: egui::accesskit::NodeId) -> bool {
+    let found = h
+        .query_by(|n| n.locate().0 == id)
+        .map(|n| n.click_accesskit())
+        .is_some();
+    if found {
+        h.step();
+        h.step();
+    }
+    found
+}
+
 #[test]
 fn every_button_and_menu_item_can_be_pressed_without_a_panic() {
-    let mut h = harness("smoke");
+    // Left alone: "Browse…" opens the system's file dialog (a native window; none here), and
+    // "Open the demo project" reopens the bundled demo in the repository, where a later press
+    // of Save would write. The workbench has no quit item; the close prompt's buttons appear
+    // only when the window is asked to close, which this test does not do.
+    let skipped = |label: &str| label.contains("Browse") || label.contains("demo project");
+    // One micrograph of the selected grain is missing, so the relink actions are there too.
+    let project_file = demo_copy("smoke");
+    let images = project_file.parent().expect("folder").join("images");
+    std::fs::rename(images.join("tm01_g1_b.png"), images.join("elsewhere.png"))
+        .expect("move a micrograph");
+    let mut h = harness_at(project_file, vec2(1500.0, 940.0));
     h.state_mut().edit(Command::SetDraws(50));
     settle(&mut h, Duration::from_secs(120));
+    let started = Instant::now();
+    let mut pressed = std::collections::BTreeSet::new();
     for stage in Stage::ALL {
-        h.get_by_label(stage.label()).click();
-        settle(&mut h, Duration::from_secs(120));
-        let labels: Vec<String> = h
-            .query_all_by_role(egui::accesskit::Role::Button)
-            .filter_map(|n| n.accesskit_node().label())
+        let reset = |h: &mut Harness<'_, Workbench>| {
+            h.key_press(Key::Escape);
+            h.state_mut().open_stage(stage);
+            h.step();
+            h.step();
+        };
+        reset(&mut h);
+        // Each entry: the presses that make it appear (a menu, a combo box, a prompt), then it.
+        let mut queue: Vec<(
+            Vec<egui::accesskit::NodeId>,
+            egui::accesskit::NodeId,
+            String,
+        )> = pressables(&h)
+            .into_iter()
+            .map(|(id, label)| (Vec::new(), id, label))
             .collect();
-        for label in labels {
-            // The system file dialog is left alone (no desktop here), and so is reopening the
-            // bundled demo (a later Save would write into the repository).
-            if label.contains("Browse") || label.contains("demo project") {
+        let mut seen: std::collections::HashSet<egui::accesskit::NodeId> =
+            queue.iter().map(|(_, id, _)| *id).collect();
+        let mut i = 0;
+        while i < queue.len() {
+            let (path, id, label) = queue[i].clone();
+            i += 1;
+            if skipped(&label) {
                 continue;
             }
-            let found = h
-                .query_all_by_label(&label)
-                .next()
-                .map(|node| node.click())
-                .is_some();
-            if found {
-                h.step();
+            reset(&mut h);
+            if !path.iter().all(|p| press(&mut h, *p)) {
+                continue;
+            }
+            let before: std::collections::HashSet<_> =
+                pressables(&h).into_iter().map(|(id, _)| id).collect();
+            if !press(&mut h, id) {
+                continue;
+            }
+            pressed.insert(label.clone());
+            // What the press opened (menu entries, choices, a prompt's buttons) is pressed too,
+            // one level deep.
+            if path.is_empty() {
+                for (new, label) in pressables(&h) {
+                    if !before.contains(&new) && seen.insert(new) {
+                        queue.push((vec![id], new, label));
+                    }
+                }
             }
         }
         settle(&mut h, Duration::from_secs(300));
     }
-    for menu in ["File", "Edit", "View"] {
-        h.get_by_label(menu).click();
-        h.run_ok();
+    // The menus' entries were reached, not only the buttons always on screen.
+    // (A menu entry's label ends with its shortcut.)
+    for entry in [
+        "Open… Ctrl+O",
+        "Save Ctrl+S",
+        "Save as… Ctrl+Shift+S",
+        "Import spot analyses…",
+        "Export report…",
+        "Undo 50 draws Ctrl+Z",
+        "Relink…",
+        "Relink",
+        "Light",
+        "Dark",
+    ] {
+        assert!(pressed.contains(entry), "{entry} not pressed: {pressed:?}");
     }
+    eprintln!(
+        "pressed {} distinct buttons and menu items in {:.1} s",
+        pressed.len(),
+        started.elapsed().as_secs_f64()
+    );
 }
 
 /// A click at a screen position (press and release without moving).
