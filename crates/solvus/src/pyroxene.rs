@@ -305,9 +305,15 @@ pub enum PyroxeneError {
     /// The pressure is not a positive finite number.
     #[error("pressure {0} kbar is not usable")]
     BadPressure(f64),
+    /// Neither Mg nor Fe: the Mg/Fe ratios the thermometers use have no value.
+    #[error(
+        "the {0} has neither Mg nor Fe: pyroxene thermometers need Mg + Fe above zero (check the analysis' MgO and FeO columns)"
+    )]
+    NoMgOrFe(&'static str),
     /// A logarithm or ratio in the equation has no value for this composition.
     #[error(
-        "{thermometer}: {quantity} is {value}, so the equation has no value for this composition"
+        "{thermometer}: {quantity} is {}, so the equation has no value for this composition",
+        describe_value(*value)
     )]
     OutOfDomain {
         /// Thermometer id.
@@ -317,6 +323,17 @@ pub enum PyroxeneError {
         /// Its value.
         value: f64,
     },
+}
+
+/// A value for a message: a number, or what it is when it is not one (never `NaN`).
+fn describe_value(value: f64) -> String {
+    if value.is_nan() {
+        "undefined (a ratio of zeros)".into()
+    } else if value.is_infinite() {
+        "infinite (a division by zero)".into()
+    } else {
+        format!("{value}")
+    }
 }
 
 /// Putirka (2008) equilibrium test for cpx-opx pairs: K_D(Fe-Mg) = 1.09 ± 0.14 (from memory).
@@ -346,6 +363,14 @@ pub fn pyroxene_temperature(
         (_, Some(o)) if !o.all_finite() => return Err(PyroxeneError::BadCations("orthopyroxene")),
         (_, o) => o,
     };
+    if cpx.mg + cpx.fe_total <= 0.0 {
+        return Err(PyroxeneError::NoMgOrFe("clinopyroxene"));
+    }
+    if let Some(o) = opx
+        && o.mg + o.fe_total <= 0.0
+    {
+        return Err(PyroxeneError::NoMgOrFe("orthopyroxene"));
+    }
     let positive = |quantity: &'static str, value: f64| {
         if value > 0.0 && value.is_finite() {
             Ok(value)
@@ -421,8 +446,13 @@ pub fn pyroxene_temperature(
     }
     // Calibration and equilibrium warnings (ranges from the papers, from memory).
     if let Some(o) = opx {
-        let kd = (cpx.fe_total / cpx.mg) / (o.fe_total / o.mg);
-        if (kd - KD_CPX_OPX.0).abs() > KD_CPX_OPX.1 {
+        let (num, den) = (cpx.fe_total * o.mg, cpx.mg * o.fe_total);
+        let kd = num / den;
+        if !(den > 0.0 && kd.is_finite()) {
+            warnings.push(
+                "K_D(Fe-Mg) cpx-opx cannot be computed (Mg or Fe is absent from one pyroxene), so the pair's equilibrium is not checked".into(),
+            );
+        } else if (kd - KD_CPX_OPX.0).abs() > KD_CPX_OPX.1 {
             warnings.push(format!(
                 "K_D(Fe-Mg) cpx-opx = {kd:.2}, outside 1.09 ± 0.14: the pair may not be in equilibrium (Putirka 2008)"
             ));

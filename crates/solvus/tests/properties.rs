@@ -138,3 +138,184 @@ proptest! {
         }
     }
 }
+
+/// Any point of the closed Ab-Or-An simplex: each fraction is dropped to zero with probability
+/// about 1/4 before normalising, so edges and corners come up as often as the interior.
+fn closed_simplex() -> impl Strategy<Value = Composition> {
+    let part = (0.0f64..1.0).prop_map(|v| if v < 0.25 { 0.0 } else { v });
+    (part.clone(), part.clone(), part).prop_filter_map("all zero", |(a, b, c)| {
+        let s = a + b + c;
+        (s > 0.0).then(|| Composition::new(a / s, b / s, c / s).unwrap())
+    })
+}
+
+/// A refusal is a typed error whose message says something and shows no NaN (design rule: bad
+/// input gets a clear message, never a NaN shown as a result).
+fn check_refusal(message: &str) -> Result<(), TestCaseError> {
+    prop_assert!(!message.trim().is_empty(), "empty message");
+    prop_assert!(!message.contains("NaN"), "NaN in message: {message}");
+    Ok(())
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(48))]
+
+    #[test]
+    fn min_temperature_is_finite_or_a_typed_refusal_anywhere_on_the_simplex(
+        model in any_model(),
+        x in closed_simplex(),
+        p_kbar in -2.0f64..14.0,
+    ) {
+        // Source: the definition of the minimum crystallisation temperature (design §3.4): a
+        // temperature inside the model's range, or one of the typed outcomes (stable at every
+        // temperature, unstable at the top, composition outside the model). A pressure outside
+        // the model's stated range (0-10 kbar for the built-in models) is an error, never a
+        // number. Tolerance on the range ends 1e-6 K: the bisection stops inside the interval.
+        use solvus::{MinTemperature, min_crystallisation_temperature};
+        let [p_lo, p_hi] = model.range.pressure_kbar;
+        let [t_lo, t_hi] = model.range.temperature_c.map(|t| t + 273.15);
+        match min_crystallisation_temperature(&model, &x, p_kbar * 1000.0) {
+            Ok(r) => {
+                prop_assert!((p_lo..=p_hi).contains(&p_kbar), "accepted {p_kbar} kbar");
+                match r.outcome {
+                    MinTemperature::Found { temperature_k, conjugate } => {
+                        prop_assert!(temperature_k.is_finite());
+                        prop_assert!(temperature_k >= t_lo - 1e-6 && temperature_k <= t_hi + 1e-6,
+                            "{temperature_k} K outside {t_lo}-{t_hi}");
+                        let c = conjugate.as_array();
+                        prop_assert!(c.iter().all(|v| v.is_finite() && *v >= -1e-12));
+                        prop_assert!((c.iter().sum::<f64>() - 1.0).abs() < 1e-9);
+                    }
+                    MinTemperature::StableInRange { t_min_k, t_max_k } => {
+                        prop_assert!(t_min_k.is_finite() && t_max_k.is_finite());
+                    }
+                    MinTemperature::UnstableAtRangeTop { t_max_k } => {
+                        prop_assert!(t_max_k.is_finite());
+                    }
+                    MinTemperature::OutsideCompositionRange { reason } => {
+                        // Only a binary model refuses a composition: too much An to project.
+                        prop_assert!(x.x_an > model.range.max_x_an, "{reason}");
+                        check_refusal(&reason)?;
+                    }
+                    other => prop_assert!(false, "unexpected {other:?}"),
+                }
+            }
+            Err(e) => {
+                prop_assert!(!(p_lo..=p_hi).contains(&p_kbar), "refused {p_kbar} kbar: {e}");
+                check_refusal(&e.to_string())?;
+            }
+        }
+    }
+
+    #[test]
+    fn pair_temperatures_are_finite_or_typed_anywhere_on_the_simplex(
+        model in any_model(),
+        a in closed_simplex(),
+        b in closed_simplex(),
+        p_kbar in 0.0f64..10.0,
+    ) {
+        // Source: the two-feldspar method (Fuhrman & Lindsley 1988): each component gives the
+        // temperature where its activities in the two phases are equal, searched over the
+        // model's temperature range, or says there is none. Every temperature found is finite
+        // and inside that range (1e-6 K, the root finder's stopping tolerance); the spread is
+        // the largest minus the smallest of them.
+        use solvus::ComponentTemperature;
+        let [t_lo, t_hi] = model.range.temperature_c.map(|t| t + 273.15);
+        match pair_temperatures(&model, &a, &b, p_kbar * 1000.0) {
+            Ok(r) => {
+                let found: Vec<f64> = r.components().iter().filter_map(|c| c.temperature_k()).collect();
+                for c in r.components() {
+                    match c {
+                        ComponentTemperature::Root { temperature_k } => {
+                            prop_assert!(temperature_k.is_finite());
+                            prop_assert!(*temperature_k >= t_lo - 1e-6 && *temperature_k <= t_hi + 1e-6,
+                                "{temperature_k} K outside {t_lo}-{t_hi}");
+                        }
+                        ComponentTemperature::NoRootInRange { reason } => check_refusal(reason)?,
+                        other => prop_assert!(false, "unexpected {other:?}"),
+                    }
+                }
+                match r.spread_k {
+                    Some(s) => {
+                        prop_assert!(found.len() >= 2);
+                        let hi = found.iter().copied().fold(f64::MIN, f64::max);
+                        let lo = found.iter().copied().fold(f64::MAX, f64::min);
+                        prop_assert!((s - (hi - lo)).abs() < 1e-9);
+                    }
+                    None => prop_assert!(found.len() < 2),
+                }
+            }
+            Err(e) => {
+                // Only a binary model refuses a composition (too much An to project).
+                prop_assert!(a.x_an > model.range.max_x_an || b.x_an > model.range.max_x_an, "{e}");
+                check_refusal(&e.to_string())?;
+            }
+        }
+    }
+}
+
+/// Cations per 6 oxygens of any pyroxene: Si, Al, Ti, Cr, Na, K, Mn in and beyond their
+/// natural ranges, and Ca, Mg, Fe sharing the remaining M-site cations with each allowed to be
+/// zero (so pure end-members and Fe- or Mg-free pyroxenes come up).
+fn any_pyroxene() -> impl Strategy<Value = solvus::pyroxene::PyroxeneCations> {
+    let minor = |hi: f64| (0.0f64..1.0).prop_map(move |v| if v < 0.3 { 0.0 } else { v * hi });
+    (
+        (1.5f64..2.1, minor(0.5), minor(0.08), minor(0.05)),
+        (minor(0.3), minor(0.02), minor(0.05)),
+        (minor(1.0), minor(1.0), minor(1.0)),
+    )
+        .prop_map(|((si, al, ti, cr), (na, k, mn), (ca, mg, fe))| {
+            let m = ca + mg + fe;
+            // Ca + Mg + Fe fill what is left of the four cations (zero if nothing was drawn).
+            let room = (4.0 - si - al - ti - cr - na - k - mn).max(0.0);
+            let scale = if m > 0.0 { room / m } else { 0.0 };
+            solvus::pyroxene::PyroxeneCations {
+                si,
+                ti,
+                al,
+                cr,
+                fe_total: fe * scale,
+                mn,
+                mg: mg * scale,
+                ca: ca * scale,
+                na,
+                k,
+            }
+        })
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(2000))]
+
+    #[test]
+    fn pyroxene_thermometers_give_a_finite_temperature_or_a_typed_refusal(
+        cpx in any_pyroxene(),
+        opx in any_pyroxene(),
+        p_kbar in 0.0f64..60.0,
+    ) {
+        // Source: the published equations (Brey & Köhler 1990; Wells 1977; Putirka 2008 eqs 36,
+        // 37, 32d): each is a ratio with logarithms of activities or component ratios; where a
+        // logarithm's argument is not positive or the result is not a temperature above 0 K the
+        // equation has no value, which must be said (PyroxeneError), never shown as NaN or inf.
+        use solvus::pyroxene::{PyroxeneThermometer, pyroxene_temperature};
+        for thermometer in PyroxeneThermometer::ALL {
+            match pyroxene_temperature(thermometer, &cpx, Some(&opx), p_kbar) {
+                Ok(t) => {
+                    prop_assert!(t.temperature_c.is_finite() && t.temperature_c > -273.15,
+                        "{} gave {} for {cpx:?} / {opx:?}", thermometer.id(), t.temperature_c);
+                    prop_assert!(t.see_c.is_finite() && t.see_c > 0.0);
+                    for w in &t.warnings {
+                        prop_assert!(!w.contains("NaN") && !w.contains("inf"),
+                            "{}: warning {w} for {cpx:?} / {opx:?}", thermometer.id());
+                    }
+                }
+                Err(e) => check_refusal(&e.to_string())?,
+            }
+        }
+        // A two-pyroxene thermometer without its orthopyroxene is a typed refusal.
+        for thermometer in PyroxeneThermometer::ALL.into_iter().filter(|t| t.needs_pair()) {
+            let e = pyroxene_temperature(thermometer, &cpx, None, p_kbar).unwrap_err();
+            check_refusal(&e.to_string())?;
+        }
+    }
+}
