@@ -23,6 +23,9 @@ pub const IMAGE_BUDGET_BYTES: u64 = 64 * 1024 * 1024;
 /// When the message is empty, or mentions a panic or shows a NaN that the input did not hold.
 pub fn check_message(message: &str, input: &[u8]) -> String {
     // A message may quote the offending text back; only words the input did not hold count.
+    // The spot-table reader drops a carriage return outside quotes (CRLF line ends), so a cell
+    // quoted back may join words the input split with one: compare without them.
+    let input: Vec<u8> = input.iter().copied().filter(|&b| b != b'\r').collect();
     let echoed = |word: &str| {
         input
             .windows(word.len())
