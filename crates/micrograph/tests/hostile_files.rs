@@ -232,3 +232,95 @@ fn formats_round_trip_at_their_depth() {
         other => panic!("expected 8-bit grey, got {other:?}"),
     }
 }
+
+/// A little-endian 16-bit greyscale TIFF header (TIFF 6.0 §2, baseline tags) claiming
+/// `width` x `height` pixels in one strip of 2 bytes: the data is missing.
+fn tiff_header_claiming(width: u32, height: u32) -> Vec<u8> {
+    let mut t = b"II*\x00".to_vec();
+    t.extend_from_slice(&8u32.to_le_bytes());
+    let entries: [(u16, u16, u32, u32); 8] = [
+        (256, 4, 1, width),
+        (257, 4, 1, height),
+        (258, 3, 1, 16),
+        (259, 3, 1, 1),
+        (262, 3, 1, 1),
+        (273, 4, 1, 8),
+        (278, 4, 1, height),
+        (279, 4, 1, 2),
+    ];
+    t.extend_from_slice(&(entries.len() as u16).to_le_bytes());
+    for (tag, typ, count, value) in entries {
+        t.extend_from_slice(&tag.to_le_bytes());
+        t.extend_from_slice(&typ.to_le_bytes());
+        t.extend_from_slice(&count.to_le_bytes());
+        if typ == 3 {
+            t.extend_from_slice(&(value as u16).to_le_bytes());
+            t.extend_from_slice(&[0, 0]);
+        } else {
+            t.extend_from_slice(&value.to_le_bytes());
+        }
+    }
+    t.extend_from_slice(&0u32.to_le_bytes());
+    t
+}
+
+#[test]
+fn a_20000_square_16_bit_image_over_the_budget_is_refused_from_its_header() {
+    // 20000 x 20000 px at 2 bytes = 800,000,000 bytes of pixels (arithmetic). Over a 512 MiB
+    // budget both loaders refuse from the header alone (the files are a few hundred bytes, so
+    // nothing was decoded), naming the size and what to do. The PNG route counts the decoder's
+    // buffer and our copy (1.6e9 bytes); the TIFF route reads straight into our buffer (8e8).
+    let budget = LoadOptions {
+        memory_budget_bytes: 512 * 1024 * 1024,
+    };
+    for (name, bytes, needed) in [
+        (
+            "big20000.png",
+            png_header_claiming(20_000, 20_000),
+            1_600_000_000u64,
+        ),
+        (
+            "big20000.tif",
+            tiff_header_claiming(20_000, 20_000),
+            800_000_000,
+        ),
+    ] {
+        let p = tmp(name, &bytes);
+        let err = load(&p, &budget).unwrap_err();
+        match &err {
+            MicrographError::TooLarge {
+                width,
+                height,
+                needed_bytes,
+                budget_bytes,
+                ..
+            } => {
+                assert_eq!((*width, *height), (20_000, 20_000), "{name}");
+                assert_eq!(*needed_bytes, needed, "{name}");
+                assert_eq!(*budget_bytes, 512 * 1024 * 1024, "{name}");
+            }
+            other => panic!("{name}: expected TooLarge, got {other}"),
+        }
+        let message = err.to_string();
+        for part in [name, "20000 x 20000", "raise the budget"] {
+            assert!(message.contains(part), "{name}: {message}");
+        }
+    }
+}
+
+#[test]
+fn a_20000_square_16_bit_image_within_the_budget_passes_the_header_check() {
+    // With the default 2 GiB budget the same headers are accepted by the budget check, and the
+    // loaders go on to decode: the refusal is then about the missing data, not the size.
+    for (name, bytes) in [
+        ("ok20000.png", png_header_claiming(20_000, 20_000)),
+        ("ok20000.tif", tiff_header_claiming(20_000, 20_000)),
+    ] {
+        let p = tmp(name, &bytes);
+        let err = load(&p, &LoadOptions::default()).unwrap_err();
+        assert!(
+            matches!(err, MicrographError::Decode { .. }),
+            "{name}: {err}"
+        );
+    }
+}
