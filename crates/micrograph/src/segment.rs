@@ -924,16 +924,24 @@ mod tests {
     use imageproc::distance_transform::Norm;
     use std::sync::atomic::AtomicBool;
 
+    /// The default synthetic micrograph (lamellae, blur, noise, a crack and a pore) at a size,
+    /// as a 16-bit or an 8-bit plane.
+    fn synthetic_plane(width: u32, height: u32, sixteen_bit: bool) -> GrayPlane {
+        SyntheticSpec {
+            width,
+            height,
+            ..SyntheticSpec::default()
+        }
+        .generate()
+        .plane(width, height, sixteen_bit)
+        .unwrap()
+    }
+
     #[test]
     fn rim_matches_imageproc_l2_dilation() {
         // Source: imageproc 0.27 `morphology::dilate(.., Norm::L2, k)` on the same void mask;
         // the two sets must be identical (same definition: distance <= k).
-        let spec = SyntheticSpec {
-            width: 96,
-            height: 80,
-            ..SyntheticSpec::default()
-        };
-        let plane = spec.generate().plane(96, 80, false).unwrap();
+        let plane = synthetic_plane(96, 80, false);
         let region = Mask::full(96, 80);
         let vl = 60u16;
         for rim in [1u8, 2, 3] {
@@ -956,12 +964,7 @@ mod tests {
     fn histogram_fractions_equal_pixel_counts_without_clean_up() {
         // Source: definition; with clean-up off, counting pixels and summing the histogram
         // between levels must give identical integers.
-        let spec = SyntheticSpec {
-            width: 64,
-            height: 64,
-            ..SyntheticSpec::default()
-        };
-        let plane = spec.generate().plane(64, 64, true).unwrap();
+        let plane = synthetic_plane(64, 64, true);
         let settings = SegmentSettings {
             min_feature_px: 0,
             ..SegmentSettings::default()
@@ -1129,12 +1132,7 @@ mod tests {
     fn core_histograms_match_imageproc_chessboard_distance() {
         // Source: imageproc 0.27 `distance_transform(.., Norm::LInf)` thresholded at d on the
         // same class map; the core pixel counts per grey value must be identical.
-        let spec = SyntheticSpec {
-            width: 90,
-            height: 70,
-            ..SyntheticSpec::default()
-        };
-        let plane = spec.generate().plane(90, 70, false).unwrap();
+        let plane = synthetic_plane(90, 70, false);
         let cm: Vec<u8> = plane
             .data
             .iter()
@@ -1175,12 +1173,7 @@ mod tests {
         // Source: definition; classifying on the fly (voids, rims, region and levels applied
         // per band) must give the same core histograms as classifying into a map first and
         // running the (imageproc-checked) core test on it.
-        let spec = SyntheticSpec {
-            width: 97,
-            height: 83,
-            ..SyntheticSpec::default()
-        };
-        let plane = spec.generate().plane(97, 83, true).unwrap();
+        let plane = synthetic_plane(97, 83, true);
         let roi = crate::roi::Roi {
             include: vec![crate::roi::Polygon(vec![
                 [3.0, 5.0],
@@ -1255,12 +1248,7 @@ mod tests {
     fn measured_histogram_equals_direct_count() {
         // Source: definition; the histogram derived by subtraction must equal a direct count
         // over the measured pixels of the final class map (clean-up off, so none change).
-        let spec = SyntheticSpec {
-            width: 100,
-            height: 90,
-            ..SyntheticSpec::default()
-        };
-        let plane = spec.generate().plane(100, 90, true).unwrap();
+        let plane = synthetic_plane(100, 90, true);
         let settings = SegmentSettings {
             min_feature_px: 0,
             voids: VoidDetection::AtOrBelow(15000),
@@ -1304,12 +1292,7 @@ mod tests {
     #[test]
     fn whole_image_without_a_mask_equals_a_full_mask() {
         // Source: definition; no region and a region covering every pixel are the same job.
-        let spec = SyntheticSpec {
-            width: 90,
-            height: 70,
-            ..SyntheticSpec::default()
-        };
-        let plane = spec.generate().plane(90, 70, true).unwrap();
+        let plane = synthetic_plane(90, 70, true);
         let s = SegmentSettings::default();
         let with = segment(&plane, &Mask::full(90, 70), &s, &Control::none()).unwrap();
         let without = segment_region(&plane, None, &s, &Control::none()).unwrap();
@@ -1319,14 +1302,7 @@ mod tests {
 
     #[test]
     fn cancel_flag_stops_the_job() {
-        let plane = SyntheticSpec {
-            width: 32,
-            height: 32,
-            ..SyntheticSpec::default()
-        }
-        .generate()
-        .plane(32, 32, false)
-        .unwrap();
+        let plane = synthetic_plane(32, 32, false);
         let flag = AtomicBool::new(true);
         let ctl = Control {
             cancel: Some(&flag),
@@ -1344,14 +1320,7 @@ mod tests {
 
     #[test]
     fn bad_manual_levels_are_refused() {
-        let plane = SyntheticSpec {
-            width: 32,
-            height: 32,
-            ..SyntheticSpec::default()
-        }
-        .generate()
-        .plane(32, 32, false)
-        .unwrap();
+        let plane = synthetic_plane(32, 32, false);
         let settings = SegmentSettings {
             classes: 3,
             levels: LevelChoice::Manual(vec![150, 100]),
