@@ -15,7 +15,7 @@ use serde::{Deserialize, Serialize};
 
 use crate::bootstrap::{TileStats, fraction_ci95, statistic_ci95};
 use crate::control::Control;
-use crate::correct::{Flattening, solve, terms};
+use crate::correct::{Flattening, fit_gain_surface, solve, surface_at, terms};
 use crate::error::{MicrographError, Result};
 use crate::histogram::Histogram;
 use crate::load::{GrayPlane, Micrograph, Pixels};
@@ -547,13 +547,7 @@ pub fn flatten_colour(
         });
     }
     let nt = terms(0.0, 0.0, degree).len();
-    let gain_at = |coef: &[f64], u: f64, v: f64| -> f64 {
-        terms(u, v, degree)
-            .iter()
-            .zip(coef)
-            .map(|(t, c)| t * c)
-            .sum()
-    };
+    let gain_at = |coef: &[f64], u: f64, v: f64| surface_at(coef, degree, u, v);
     let mut coef = vec![0.0; nt];
     coef[0] = 1.0;
     for _ in 0..3 {
@@ -573,53 +567,14 @@ pub fn flatten_colour(
                 sum[k].1 += 1;
             }
         }
-        let mut ata = vec![vec![0.0; nt]; nt];
-        let mut atb = vec![0.0; nt];
-        for (&(u, v, c), &k) in samples.iter().zip(&classes) {
-            if k >= phases.len() || sum[k].1 == 0 {
-                continue;
-            }
-            let mean = sum[k].0 / sum[k].1 as f64;
-            if mean <= 0.0 {
-                continue;
-            }
-            let t = terms(u, v, degree);
-            let ratio = luminance(c) / mean;
-            for a in 0..nt {
-                atb[a] += t[a] * ratio;
-                for b in 0..nt {
-                    ata[a][b] += t[a] * t[b];
-                }
-            }
-        }
-        coef = solve(ata, atb).ok_or_else(|| MicrographError::EmptyRegion {
-            reason: "the region is too small or too thin to fit an illumination surface"
-                .to_string(),
-        })?;
-        let mean_gain = samples
-            .iter()
-            .map(|&(u, v, _)| gain_at(&coef, u, v))
-            .sum::<f64>()
-            / samples.len() as f64;
-        coef.iter_mut().for_each(|c| *c /= mean_gain);
-    }
-    let gains: Vec<f64> = samples
-        .iter()
-        .map(|&(u, v, _)| gain_at(&coef, u, v))
-        .collect();
-    let fl = Flattening {
-        degree,
-        coefficients: coef,
-        min_gain: gains.iter().copied().fold(f64::INFINITY, f64::min),
-        max_gain: gains.iter().copied().fold(f64::NEG_INFINITY, f64::max),
-    };
-    if fl.min_gain <= 0.05 {
-        return Err(MicrographError::EmptyRegion {
-            reason:
-                "the fitted illumination surface goes to zero; flattening is not meaningful here"
-                    .to_string(),
+        let ratios = samples.iter().zip(&classes).filter_map(|(&(u, v, c), &k)| {
+            let (total, count) = *sum.get(k)?;
+            let mean = total / count.max(1) as f64;
+            (count > 0 && mean > 0.0).then(|| (u, v, luminance(c) / mean))
         });
+        coef = fit_gain_surface(ratios, degree, samples.iter().map(|&(u, v, _)| (u, v)))?;
     }
+    let fl = Flattening::over_sample(degree, coef, samples.iter().map(|&(u, v, _)| (u, v)))?;
     let pixels = match image.pixels() {
         Pixels::Rgb8(v) => {
             // Encoding through a table over linear values in steps of 1/65535 (under 0.05 of

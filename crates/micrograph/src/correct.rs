@@ -31,12 +31,77 @@ impl Flattening {
     pub fn gain(&self, x: u32, y: u32, width: u32, height: u32) -> f64 {
         let u = 2.0 * (f64::from(x) + 0.5) / f64::from(width) - 1.0;
         let v = 2.0 * (f64::from(y) + 0.5) / f64::from(height) - 1.0;
-        terms(u, v, self.degree)
-            .iter()
-            .zip(&self.coefficients)
-            .map(|(t, c)| t * c)
-            .sum()
+        surface_at(&self.coefficients, self.degree, u, v)
     }
+
+    /// The surface of `coefficients`, with its smallest and largest gain over the points
+    /// `(u, v)` of the fit's sample; refused when the gain gets near zero (dividing by it would
+    /// blow the image up).
+    pub(crate) fn over_sample(
+        degree: u8,
+        coefficients: Vec<f64>,
+        sample: impl Iterator<Item = (f64, f64)>,
+    ) -> Result<Self> {
+        let (mut min_gain, mut max_gain) = (f64::INFINITY, f64::NEG_INFINITY);
+        for (u, v) in sample {
+            let g = surface_at(&coefficients, degree, u, v);
+            min_gain = min_gain.min(g);
+            max_gain = max_gain.max(g);
+        }
+        if min_gain <= 0.05 {
+            return Err(MicrographError::EmptyRegion {
+                reason:
+                    "the fitted illumination surface goes to zero; flattening is not meaningful here"
+                        .to_string(),
+            });
+        }
+        Ok(Flattening {
+            degree,
+            coefficients,
+            min_gain,
+            max_gain,
+        })
+    }
+}
+
+/// Value at `(u, v)` of the polynomial surface with `coefficients` of [`terms`].
+pub(crate) fn surface_at(coefficients: &[f64], degree: u8, u: f64, v: f64) -> f64 {
+    terms(u, v, degree)
+        .iter()
+        .zip(coefficients)
+        .map(|(t, c)| t * c)
+        .sum()
+}
+
+/// Least-squares fit of a polynomial surface of `degree` to ratios `(u, v, r)` (normal
+/// equations), scaled so that the surface averages 1 over the points `(u, v)` of `normalise_over`.
+pub(crate) fn fit_gain_surface(
+    ratios: impl Iterator<Item = (f64, f64, f64)>,
+    degree: u8,
+    normalise_over: impl ExactSizeIterator<Item = (f64, f64)>,
+) -> Result<Vec<f64>> {
+    let nt = terms(0.0, 0.0, degree).len();
+    let mut ata = vec![vec![0.0; nt]; nt];
+    let mut atb = vec![0.0; nt];
+    for (u, v, r) in ratios {
+        let t = terms(u, v, degree);
+        for a in 0..nt {
+            atb[a] += t[a] * r;
+            for b in 0..nt {
+                ata[a][b] += t[a] * t[b];
+            }
+        }
+    }
+    let mut coef = solve(ata, atb).ok_or_else(|| MicrographError::EmptyRegion {
+        reason: "the region is too small or too thin to fit an illumination surface".to_string(),
+    })?;
+    let n = normalise_over.len().max(1) as f64;
+    let mean_gain = normalise_over
+        .map(|(u, v)| surface_at(&coef, degree, u, v))
+        .sum::<f64>()
+        / n;
+    coef.iter_mut().for_each(|c| *c /= mean_gain);
+    Ok(coef)
 }
 
 pub(crate) fn terms(u: f64, v: f64, degree: u8) -> Vec<f64> {
@@ -128,13 +193,7 @@ pub fn flatten(
     coef[0] = 1.0;
     for _ in 0..3 {
         control.check()?;
-        let gain = |u: f64, v: f64| -> f64 {
-            terms(u, v, degree)
-                .iter()
-                .zip(&coef)
-                .map(|(t, c)| t * c)
-                .sum()
-        };
+        let gain = |u: f64, v: f64| surface_at(&coef, degree, u, v);
         // Classify the corrected samples.
         let corrected: Vec<u16> = samples
             .iter()
@@ -150,67 +209,16 @@ pub fn flatten(
         let stats = hist.class_stats(&levels);
         let class_of = |g: u16| levels.iter().filter(|&&l| g > l).count();
         // Least squares of raw grey / class mean against the polynomial.
-        let mut ata = vec![vec![0.0; nt]; nt];
-        let mut atb = vec![0.0; nt];
-        for (&(u, v, g), &cg) in samples.iter().zip(&sp.data) {
-            let Some(m) = stats[class_of(cg)].mean_gray else {
-                continue;
-            };
-            if m <= 0.0 {
-                continue;
-            }
-            let t = terms(u, v, degree);
-            let r = g / m;
-            for a in 0..nt {
-                atb[a] += t[a] * r;
-                for b in 0..nt {
-                    ata[a][b] += t[a] * t[b];
-                }
-            }
-        }
-        coef = solve(ata, atb).ok_or_else(|| MicrographError::EmptyRegion {
-            reason: "the region is too small or too thin to fit an illumination surface"
-                .to_string(),
-        })?;
-        // Normalise: mean gain 1 over the samples.
-        let mean_gain: f64 = samples
+        let ratios = samples
             .iter()
-            .map(|&(u, v, _)| {
-                terms(u, v, degree)
-                    .iter()
-                    .zip(&coef)
-                    .map(|(t, c)| t * c)
-                    .sum::<f64>()
-            })
-            .sum::<f64>()
-            / samples.len() as f64;
-        coef.iter_mut().for_each(|c| *c /= mean_gain);
+            .zip(&sp.data)
+            .filter_map(|(&(u, v, g), &cg)| {
+                let m = stats[class_of(cg)].mean_gray.filter(|&m| m > 0.0)?;
+                Some((u, v, g / m))
+            });
+        coef = fit_gain_surface(ratios, degree, samples.iter().map(|&(u, v, _)| (u, v)))?;
     }
-    let fl = {
-        let gains: Vec<f64> = samples
-            .iter()
-            .map(|&(u, v, _)| {
-                terms(u, v, degree)
-                    .iter()
-                    .zip(&coef)
-                    .map(|(t, c)| t * c)
-                    .sum()
-            })
-            .collect();
-        Flattening {
-            degree,
-            coefficients: coef,
-            min_gain: gains.iter().copied().fold(f64::INFINITY, f64::min),
-            max_gain: gains.iter().copied().fold(f64::NEG_INFINITY, f64::max),
-        }
-    };
-    if fl.min_gain <= 0.05 {
-        return Err(MicrographError::EmptyRegion {
-            reason:
-                "the fitted illumination surface goes to zero; flattening is not meaningful here"
-                    .to_string(),
-        });
-    }
+    let fl = Flattening::over_sample(degree, coef, samples.iter().map(|&(u, v, _)| (u, v)))?;
     let max = f64::from(plane.max_value);
     let data: Vec<u16> = plane
         .data
