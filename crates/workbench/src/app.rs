@@ -1133,6 +1133,7 @@ impl Workbench {
         egui::Panel::right("card")
             .resizable(true)
             .default_size(340.0)
+            .min_size(260.0)
             .show(ui, |ui| {
                 panels::card::ui(ui, &view, &mut actions);
             });

@@ -249,8 +249,18 @@ pub fn figure_ui(
                     } => ("●", on_screen(fill.unwrap_or(*c), dark)),
                     LegendSymbol::Patch { fill, .. } => ("■", colour(*fill)),
                 };
-                ui.colored_label(c, glyph);
-                ui.label(plain_text(&entry.label));
+                // Mark and label in one label that does not wrap, so a line never breaks
+                // between an entry's mark and its words.
+                let mut job = egui::text::LayoutJob::default();
+                let font = egui::TextStyle::Body.resolve(ui.style());
+                let text = ui.visuals().text_color();
+                job.append(glyph, 0.0, egui::TextFormat::simple(font.clone(), c));
+                job.append(
+                    &plain_text(&entry.label),
+                    4.0,
+                    egui::TextFormat::simple(font, text),
+                );
+                ui.add(egui::Label::new(job).wrap_mode(egui::TextWrapMode::Extend));
                 ui.add_space(8.0);
             }
         });

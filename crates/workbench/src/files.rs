@@ -181,6 +181,8 @@ impl PathPrompt {
         egui::Window::new(title)
             .collapsible(false)
             .resizable(false)
+            .pivot(egui::Align2::CENTER_CENTER)
+            .default_pos(ctx.content_rect().center())
             .open(&mut open)
             .show(ctx, |ui| {
                 let l = ui.label(match self.purpose {

@@ -54,7 +54,14 @@ pub fn ternary_readout(model_id: &str, pressure_kbar: f64, x: [f64; 3]) -> Strin
         TemperatureOutcome::AboveRange => {
             "inside the solvus even at the top of the model's range".into()
         }
-        TemperatureOutcome::Refused { reason } => format!("no temperature: {reason}"),
+        TemperatureOutcome::Refused { reason } => {
+            // The composition is already in the head, rounded; the solver repeats it in full.
+            let reason = match reason.split_once("): ") {
+                Some((lead, rest)) if lead.starts_with("invalid composition (") => rest.to_string(),
+                _ => reason,
+            };
+            format!("no temperature: {reason}")
+        }
         _ => "no temperature".into(),
     };
     format!(
@@ -237,6 +244,9 @@ impl TemperatureStage {
                 h,
                 actions,
             );
+            // Text under the ternary wraps at the column's width (the figure and its legend
+            // may widen the column's layout).
+            let width = cols[1].available_width();
             let hovered = figure_with_export(
                 &mut cols[1],
                 view,
@@ -260,11 +270,17 @@ impl TemperatureStage {
                         self.readout = Some((key, text));
                     }
                     if let Some((_, text)) = &self.readout {
-                        cols[1].label(text);
+                        cols[1].scope(|ui| {
+                            ui.set_max_width(width);
+                            ui.label(text);
+                        });
                     }
                 }
                 None => {
-                    cols[1].weak("Point at the triangle to read a composition and its minimum crystallisation temperature.");
+                    cols[1].scope(|ui| {
+                        ui.set_max_width(width);
+                        ui.weak("Point at the triangle to read a composition and its minimum crystallisation temperature.");
+                    });
                 }
             }
         });
