@@ -109,6 +109,16 @@ impl Default for GrainFigureOptions {
     }
 }
 
+/// The model whose isotherms the ternary figure draws: the project's own feldspar model when
+/// it is ternary, otherwise `options.ternary_model` (a binary Ab-Or model says nothing across
+/// the triangle). Readouts over the figure use the same model, so that they agree with it.
+pub fn ternary_model_id<'a>(feldspar_model: &'a str, options: &'a GrainFigureOptions) -> &'a str {
+    match SolutionModel::builtin(feldspar_model) {
+        Ok(m) if m.kind == ModelKind::Ternary => feldspar_model,
+        _ => &options.ternary_model,
+    }
+}
+
 fn model(id: &str) -> Result<SolutionModel, FigureError> {
     SolutionModel::builtin(id).map_err(|e| FigureError::Model {
         model: id.into(),
@@ -165,12 +175,7 @@ pub fn grain_figure(
             )
         }
         FigureKind::Ternary => {
-            let own = model(&settings.feldspar_model)?;
-            let m = if own.kind == ModelKind::Ternary {
-                own
-            } else {
-                model(&options.ternary_model)?
-            };
+            let m = model(ternary_model_id(&settings.feldspar_model, options))?;
             let spots = grain_spots(project, project_file, grain)?;
             ternary_figure(
                 &m,

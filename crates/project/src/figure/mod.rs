@@ -50,7 +50,7 @@ pub mod render;
 mod solvus_diagram;
 mod ternary_diagram;
 
-pub use grain::{FigureKind, GrainFigureOptions, grain_figure};
+pub use grain::{FigureKind, GrainFigureOptions, grain_figure, ternary_model_id};
 pub use histogram::{bin_counts, freedman_diaconis_edges, min_temperature_figure};
 pub use micrograph::{MicrographFigureOptions, micrograph_figure, scale_bar_length};
 pub use quadrilateral::{

@@ -256,17 +256,20 @@ impl TemperatureStage {
                 actions,
             );
             let settings = &view.doc.project.settings;
+            // The readout uses the model the figure draws (the project's when it is ternary).
+            let options = project::figure::GrainFigureOptions::default();
+            let model_id = project::figure::ternary_model_id(&settings.feldspar_model, &options);
             match hovered.and_then(ternary_composition) {
                 Some(x) => {
                     // Rounded to the readout's digits: the temperature is found again only when
                     // the pointer moves to another composition.
                     let key = format!(
-                        "{}|{}|{:.3}|{:.3}|{:.3}",
-                        settings.feldspar_model, settings.pressure_kbar, x[0], x[1], x[2]
+                        "{model_id}|{}|{:.3}|{:.3}|{:.3}",
+                        settings.pressure_kbar, x[0], x[1], x[2]
                     );
                     if self.readout.as_ref().is_none_or(|(k, _)| *k != key) {
-                        let r = (x.map(|v| (v * 1000.0).round() / 1000.0), settings);
-                        let text = ternary_readout(&r.1.feldspar_model, r.1.pressure_kbar, r.0);
+                        let x = x.map(|v| (v * 1000.0).round() / 1000.0);
+                        let text = ternary_readout(model_id, settings.pressure_kbar, x);
                         self.readout = Some((key, text));
                     }
                     if let Some((_, text)) = &self.readout {
@@ -401,6 +404,17 @@ mod tests {
             ternary_composition([0.5, -0.1]).is_none(),
             "below the Ab-Or edge"
         );
+    }
+
+    #[test]
+    fn the_readout_reads_the_model_the_ternary_draws() {
+        // A binary (Ab-Or) project model has no isotherms across the triangle, so the figure
+        // draws the default ternary model; a ternary project model is drawn as it is.
+        let options = project::figure::GrainFigureOptions::default();
+        let id = |m| project::figure::ternary_model_id(m, &options).to_string();
+        assert_eq!(id("haselton1983"), options.ternary_model);
+        assert_eq!(id("eg1990"), "eg1990");
+        assert_eq!(id("fl1988"), "fl1988");
     }
 
     #[test]
