@@ -77,7 +77,14 @@ pub fn messages(view: &View<'_>) -> Vec<Message> {
     }
     let Some(at) = view.grain else { return out };
     let grain = view.doc.grain(at);
-    if let Some(f) = view.failure(at) {
+    // A grain stopped by a missing file says what the missing-file message above says already.
+    let names_a_missing_file = |text: &str| {
+        view.missing.iter().any(|m| {
+            text.contains(&m.resolved.display().to_string())
+                || text.contains(&m.stored.display().to_string())
+        })
+    };
+    if let Some(f) = view.failure(at).filter(|f| !names_a_missing_file(&f.message)) {
         out.push(Message {
             severity: Severity::Error,
             text: f.message.clone(),
