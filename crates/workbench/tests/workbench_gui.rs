@@ -951,3 +951,35 @@ fn a_failed_save_says_why_and_keeps_the_document_unsaved() {
     assert!(!bad.exists());
     h.get_by_label_contains("(edited)");
 }
+
+#[test]
+fn a_fitted_image_is_fitted_again_when_the_canvas_changes_size_and_a_chosen_zoom_is_kept() {
+    // Screen points per image pixel, from two image points one pixel apart.
+    let zoom = |h: &mut Harness<'_, Workbench>| {
+        let c = h.state_mut().canvas();
+        c.screen_pos([1.0, 0.0])
+            .zip(c.screen_pos([0.0, 0.0]))
+            .map(|(a, b)| a.x - b.x)
+            .expect("canvas drawn")
+    };
+    let mut h = harness_sized("refit", vec2(1500.0, 940.0));
+    settle(&mut h, Duration::from_secs(120));
+    let wide = zoom(&mut h);
+    // A narrower window leaves a narrower canvas: the whole image is fitted into it again
+    // (the fit is the smaller of width and height ratios, so it cannot grow).
+    h.set_size(vec2(1100.0, 940.0));
+    settle(&mut h, Duration::from_secs(120));
+    let narrow = zoom(&mut h);
+    assert!(narrow < wide * 0.95, "zoom {wide} -> {narrow}");
+    // After the user zooms, a resize keeps their zoom.
+    h.state_mut().canvas().zoom_by(2.0);
+    settle(&mut h, Duration::from_secs(120));
+    let chosen = zoom(&mut h);
+    assert!(
+        (chosen - 2.0 * narrow).abs() < 1e-3 * chosen,
+        "{narrow} -> {chosen}"
+    );
+    h.set_size(vec2(1500.0, 940.0));
+    settle(&mut h, Duration::from_secs(120));
+    assert!((zoom(&mut h) - chosen).abs() < 1e-3 * chosen);
+}

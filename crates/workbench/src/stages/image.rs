@@ -53,6 +53,8 @@ pub struct ImageStage {
     shown_size: (usize, usize),
     /// Canvas rectangle last drawn.
     last_rect: Rect,
+    /// The view is the fitted one (no pan or zoom since): a canvas of another size refits it.
+    fitted: bool,
     /// Show the phase classes over the image.
     pub show_classes: bool,
     /// Opacity of the classes.
@@ -92,6 +94,7 @@ impl Default for ImageStage {
             centre: Pos2::ZERO,
             shown_size: (0, 0),
             last_rect: Rect::NOTHING,
+            fitted: false,
             show_classes: false,
             opacity: 0.5,
             show_region: true,
@@ -209,6 +212,7 @@ impl ImageStage {
     pub fn zoom_by(&mut self, factor: f32) {
         if self.zoom > 0.0 {
             self.zoom = (self.zoom * factor).clamp(0.005, 64.0);
+            self.fitted = false;
         }
     }
 
@@ -526,9 +530,14 @@ impl ImageStage {
             self.shown_size = (w, h);
             self.zoom = 0.0;
         }
+        if self.fitted && self.last_rect.size() != rect.size() {
+            // The canvas changed size (window resized, side panels moved): fit again.
+            self.zoom = 0.0;
+        }
         if self.zoom <= 0.0 {
             self.zoom = (rect.width() / w as f32).min(rect.height() / h as f32) * 0.98;
             self.centre = pos2(w as f32 / 2.0, h as f32 / 2.0);
+            self.fitted = true;
         }
         self.last_rect = rect;
         let at = view.micrograph_ref();
@@ -553,8 +562,9 @@ impl ImageStage {
         } else {
             response.dragged()
         };
-        if pan {
+        if pan && response.drag_delta() != Vec2::ZERO {
             self.centre -= response.drag_delta() / self.zoom;
+            self.fitted = false;
         }
         if let Some(pointer) = response.hover_pos() {
             let (scroll, pinch) = ui.input(|i| (i.smooth_scroll_delta.y, i.zoom_delta()));
@@ -563,6 +573,7 @@ impl ImageStage {
                 let before = self.centre + (pointer - rect.center()) / self.zoom;
                 self.zoom = (self.zoom * factor).clamp(0.005, 64.0);
                 self.centre = before - (pointer - rect.center()) / self.zoom;
+                self.fitted = false;
             }
         }
         if over && keys_free {
@@ -888,6 +899,7 @@ impl ImageStage {
             let view = Rect::from_center_size(self.centre, self.last_rect.size() / self.zoom);
             if !view.shrink(20.0 / self.zoom).contains(p) {
                 self.centre = p;
+                self.fitted = false;
             }
         }
     }
