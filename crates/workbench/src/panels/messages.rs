@@ -84,7 +84,10 @@ pub fn messages(view: &View<'_>) -> Vec<Message> {
                 || text.contains(&m.stored.display().to_string())
         })
     };
-    if let Some(f) = view.failure(at).filter(|f| !names_a_missing_file(&f.message)) {
+    if let Some(f) = view
+        .failure(at)
+        .filter(|f| !names_a_missing_file(&f.message))
+    {
         out.push(Message {
             severity: Severity::Error,
             text: f.message.clone(),
