@@ -202,6 +202,34 @@ pub fn write_atomically_with<S: SaveSink>(
     bytes: &[u8],
     layer: impl FnOnce(File) -> S,
 ) -> Result<(), ProjectError> {
+    write_atomically_filled(path, layer, |sink| sink.write_all(bytes))
+}
+
+/// [`write_atomically`] for a file written piece by piece (through a buffer), so that a large
+/// file (a report with hundreds of figures) need not be held in memory whole.
+///
+/// # Errors
+/// [`ProjectError::Save`] naming the file, the step that failed and what to do.
+pub fn write_atomically_streamed(
+    path: &Path,
+    fill: impl FnOnce(&mut dyn Write) -> std::io::Result<()>,
+) -> Result<(), ProjectError> {
+    write_atomically_filled(
+        path,
+        |file| file,
+        |file| {
+            let mut buffered = std::io::BufWriter::new(file);
+            fill(&mut buffered)?;
+            buffered.flush()
+        },
+    )
+}
+
+fn write_atomically_filled<S: SaveSink>(
+    path: &Path,
+    layer: impl FnOnce(File) -> S,
+    fill: impl FnOnce(&mut S) -> std::io::Result<()>,
+) -> Result<(), ProjectError> {
     let failed = |step: String| {
         let path = path.to_path_buf();
         move |source| ProjectError::Save { path, step, source }
@@ -222,7 +250,7 @@ pub fn write_atomically_with<S: SaveSink>(
         )))?;
         let mut sink = layer(file);
         let writing = || format!("cannot write {}", tmp.display());
-        sink.write_all(bytes).map_err(failed(writing()))?;
+        fill(&mut sink).map_err(failed(writing()))?;
         sink.flush().map_err(failed(writing()))?;
         sink.sync().map_err(failed(writing()))?;
         drop(sink);

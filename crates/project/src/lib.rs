@@ -26,7 +26,7 @@ pub use io::{
     FileRef, MissingFile, OpenedProject, ProjectError, RelinkError, SaveSink, autosave_path,
     autosave_project, load_project, missing_files, open_project, parse_project, pending_autosave,
     project_json, relink_file, save_project, save_project_with, write_atomically,
-    write_atomically_with,
+    write_atomically_streamed, write_atomically_with,
 };
 pub use run::{
     GrainFailure, GrainResult, HandEditSummary, MicrographResult, PairResult, PhaseResult, Quiet,

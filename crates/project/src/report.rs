@@ -12,7 +12,7 @@ use solvus::{ModelKind, SolutionModel};
 
 use crate::document::Project;
 use crate::figure::{Figure, FigureKind, GrainFigureOptions, grain_figure, render, short_citation};
-use crate::io::{ProjectError, write_atomically};
+use crate::io::{ProjectError, write_atomically, write_atomically_streamed};
 use crate::run::{GrainResult, RunResult};
 
 /// Resolution of the PNG figures written with a run, dpi (300 dpi: a common journal minimum
@@ -67,6 +67,17 @@ fn safe(name: &str) -> String {
 
 /// Build every applicable figure of every grain (micrographs: each one).
 pub fn grain_figures(project: &Project, project_file: &Path, run: &RunResult) -> Vec<GrainFigure> {
+    figure_jobs(run)
+        .par_iter()
+        .map(|&job| build_figure(project, project_file, job))
+        .collect()
+}
+
+/// One figure to draw: the grain, the kind and (for micrograph figures) which micrograph.
+type FigureJob<'a> = (&'a GrainResult, FigureKind, usize);
+
+/// Every applicable figure of every grain, in report order.
+fn figure_jobs(run: &RunResult) -> Vec<FigureJob<'_>> {
     let mut jobs = Vec::new();
     for g in &run.grains {
         for kind in FigureKind::ALL {
@@ -83,32 +94,53 @@ pub fn grain_figures(project: &Project, project_file: &Path, run: &RunResult) ->
             }
         }
     }
-    jobs.par_iter()
-        .map(|&(g, kind, m)| {
-            let options = GrainFigureOptions {
-                micrograph: m,
-                ..GrainFigureOptions::default()
-            };
-            let stem = if kind == FigureKind::Micrograph {
-                format!(
-                    "{}_{}_{}_{}",
-                    safe(&g.sample),
-                    safe(&g.grain),
-                    kind.name(),
-                    safe(&g.micrographs[m].label)
-                )
-            } else {
-                format!("{}_{}_{}", safe(&g.sample), safe(&g.grain), kind.name())
-            };
-            GrainFigure {
-                grain: format!("{}/{}", g.sample, g.grain),
-                kind,
-                stem,
-                figure: grain_figure(kind, project, project_file, g, &options)
-                    .map_err(|e| e.to_string()),
-            }
-        })
-        .collect()
+    jobs
+}
+
+fn build_figure(
+    project: &Project,
+    project_file: &Path,
+    (g, kind, m): FigureJob<'_>,
+) -> GrainFigure {
+    let options = GrainFigureOptions {
+        micrograph: m,
+        ..GrainFigureOptions::default()
+    };
+    let stem = if kind == FigureKind::Micrograph {
+        format!(
+            "{}_{}_{}_{}",
+            safe(&g.sample),
+            safe(&g.grain),
+            kind.name(),
+            safe(&g.micrographs[m].label)
+        )
+    } else {
+        format!("{}_{}_{}", safe(&g.sample), safe(&g.grain), kind.name())
+    };
+    GrainFigure {
+        grain: format!("{}/{}", g.sample, g.grain),
+        kind,
+        stem,
+        figure: grain_figure(kind, project, project_file, g, &options).map_err(|e| e.to_string()),
+    }
+}
+
+/// A figure drawn and written by [`write_report`]: what the text needs, and its files.
+struct Drawn {
+    grain: String,
+    kind: FigureKind,
+    stem: String,
+    problem: Option<String>,
+    files: Vec<WrittenFile>,
+}
+
+/// What the report's text needs of a figure: whose it is, its kind and file stem, and the
+/// figure (`None` when its SVG is read back from the file written) or why it was not drawn.
+struct FigureEntry<'a> {
+    grain: &'a str,
+    kind: FigureKind,
+    stem: &'a str,
+    figure: Result<Option<&'a Figure>, &'a str>,
 }
 
 fn f3(v: f64) -> String {
@@ -338,6 +370,21 @@ fn cautions(run: &RunResult) -> Vec<String> {
 
 /// The report as blocks, figures included from `figures`.
 pub fn report_blocks(project: &Project, run: &RunResult, figures: &[GrainFigure]) -> Vec<Block> {
+    let entries: Vec<FigureEntry<'_>> = figures
+        .iter()
+        .map(|f| FigureEntry {
+            grain: &f.grain,
+            kind: f.kind,
+            stem: &f.stem,
+            figure: f.figure.as_ref().map(Some).map_err(String::as_str),
+        })
+        .collect();
+    blocks_of(project, run, &entries)
+}
+
+/// [`report_blocks`] from figure entries; a figure given as `Ok(None)` gets a block with no
+/// SVG text (the page writer reads it from the figure's file).
+fn blocks_of(project: &Project, run: &RunResult, figures: &[FigureEntry<'_>]) -> Vec<Block> {
     let s = &project.settings;
     let mut b = vec![Block::Heading(
         1,
@@ -537,8 +584,8 @@ pub fn report_blocks(project: &Project, run: &RunResult, figures: &[GrainFigure]
         match &f.figure {
             Ok(fig) => b.push(Block::Figure {
                 caption: caption(f.kind, g, project),
-                stem: f.stem.clone(),
-                svg: render::to_svg(fig),
+                stem: f.stem.to_string(),
+                svg: fig.map(render::to_svg).unwrap_or_default(),
             }),
             Err(e) => not_drawn.push(format!("{} {}: {e}", f.grain, f.kind.name())),
         }
@@ -606,6 +653,19 @@ fn html_esc(s: &str) -> String {
 
 /// The blocks as one self-contained HTML page (figures inline as SVG, no external files).
 pub fn to_html(blocks: &[Block]) -> String {
+    let mut out = Vec::new();
+    // Writing into memory cannot fail.
+    let _ = write_html(blocks, &|_, svg| svg.to_string(), &mut out);
+    String::from_utf8_lossy(&out).into_owned()
+}
+
+/// Write the page of [`to_html`] to `out` piece by piece; `svg_of(stem, svg)` gives each
+/// figure's SVG from its block's stem and SVG text.
+fn write_html(
+    blocks: &[Block],
+    svg_of: &dyn Fn(&str, &str) -> String,
+    out: &mut dyn std::io::Write,
+) -> std::io::Result<()> {
     let title = blocks
         .iter()
         .find_map(|b| match b {
@@ -613,7 +673,8 @@ pub fn to_html(blocks: &[Block]) -> String {
             _ => None,
         })
         .unwrap_or_else(|| "Consolute report".into());
-    let mut out = format!(
+    write!(
+        out,
         "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>{}</title>\n<style>\n\
          body {{ font-family: 'DejaVu Sans', sans-serif; max-width: 60em; margin: 2em auto; padding: 0 1em; color: #111; line-height: 1.45; }}\n\
          table {{ border-collapse: collapse; margin: 0.5em 0 1.5em; font-size: 0.85em; }}\n\
@@ -622,59 +683,59 @@ pub fn to_html(blocks: &[Block]) -> String {
          figure {{ margin: 1.5em 0; }} figure svg {{ width: 100%; height: auto; max-width: 40em; }}\n\
          figcaption {{ font-size: 0.85em; }}\n</style>\n</head>\n<body>\n",
         html_esc(&title)
-    );
+    )?;
     for block in blocks {
         match block {
             Block::Heading(level, text) => {
-                let _ = writeln!(out, "<h{level}>{}</h{level}>", html_esc(text));
+                writeln!(out, "<h{level}>{}</h{level}>", html_esc(text))?;
             }
             Block::Para(text) => {
-                let _ = writeln!(out, "<p>{}</p>", html_esc(text));
+                writeln!(out, "<p>{}</p>", html_esc(text))?;
             }
             Block::List(items) => {
-                out.push_str("<ul>\n");
+                out.write_all("<ul>\n".as_bytes())?;
                 for i in items {
-                    let _ = writeln!(out, "<li>{}</li>", html_esc(i));
+                    writeln!(out, "<li>{}</li>", html_esc(i))?;
                 }
-                out.push_str("</ul>\n");
+                out.write_all("</ul>\n".as_bytes())?;
             }
             Block::Table(header, rows) => {
-                out.push_str("<table>\n<tr>");
+                out.write_all("<table>\n<tr>".as_bytes())?;
                 for h in header {
-                    let _ = write!(out, "<th>{}</th>", html_esc(h));
+                    write!(out, "<th>{}</th>", html_esc(h))?;
                 }
-                out.push_str("</tr>\n");
+                out.write_all("</tr>\n".as_bytes())?;
                 for r in rows {
-                    out.push_str("<tr>");
+                    out.write_all("<tr>".as_bytes())?;
                     for c in r {
-                        let _ = write!(out, "<td>{}</td>", html_esc(c));
+                        write!(out, "<td>{}</td>", html_esc(c))?;
                     }
-                    out.push_str("</tr>\n");
+                    out.write_all("</tr>\n".as_bytes())?;
                 }
-                out.push_str("</table>\n");
+                out.write_all("</table>\n".as_bytes())?;
             }
             Block::Figure { caption, stem, svg } => {
                 // ids inside inline SVGs share the page: make each figure's clip id its own
                 let clip = format!("plot-{stem}");
-                let svg = svg
+                let svg = svg_of(stem, svg)
                     .replace("id=\"plot\"", &format!("id=\"{clip}\""))
                     .replace("url(#plot)", &format!("url(#{clip})"));
-                let _ = writeln!(
+                writeln!(
                     out,
                     "<figure id=\"{}\">\n{}<figcaption>{}</figcaption>\n</figure>",
                     html_esc(stem),
                     svg,
                     html_esc(caption)
-                );
+                )?;
             }
         }
     }
-    out.push_str("</body>\n</html>\n");
-    out
+    out.write_all("</body>\n</html>\n".as_bytes())
 }
 
-/// A figure file's path and its bytes, or why it could not be encoded.
-type EncodedFile = (PathBuf, Result<Vec<u8>, String>);
+/// A figure file: its path, and whether it was written (the outer error: writing failed; the
+/// inner one: the figure could not be encoded).
+type WrittenFile = (PathBuf, Result<Result<(), String>, ProjectError>);
 
 /// What [`write_report`] wrote.
 #[derive(Debug, Clone, PartialEq)]
@@ -707,48 +768,75 @@ pub fn write_report(
         path: fig_dir.clone(),
         source,
     })?;
-    let figures = grain_figures(project, project_file, run);
-    let mut written = Vec::new();
-    let mut problems = Vec::new();
-    // encode on all cores (figures are independent), write in order
-    let encoded: Vec<Vec<EncodedFile>> = figures
+    // Each figure is drawn, encoded and written by one worker, then dropped: memory holds a
+    // few figures at a time, not the whole report's (50 grains x 5 micrographs: 400 figures,
+    // 417 MB of files). The page reads each SVG back from its file when it reaches it.
+    let jobs = figure_jobs(run);
+    let mut drawn: Vec<Drawn> = jobs
         .par_iter()
-        .map(|f| match &f.figure {
-            Ok(fig) => [
-                ("svg", render::Format::Svg),
-                ("png", render::Format::Png),
-                ("pdf", render::Format::Pdf),
-            ]
-            .into_iter()
-            .map(|(ext, format)| {
-                (
-                    fig_dir.join(format!("{}.{ext}", f.stem)),
-                    render::encode(fig, format, REPORT_DPI).map_err(|e| e.to_string()),
-                )
-            })
-            .collect(),
-            Err(_) => Vec::new(),
+        .map(|&job| {
+            let f = build_figure(project, project_file, job);
+            let files = match &f.figure {
+                Ok(fig) => [
+                    ("svg", render::Format::Svg),
+                    ("png", render::Format::Png),
+                    ("pdf", render::Format::Pdf),
+                ]
+                .into_iter()
+                .map(|(ext, format)| {
+                    let path = fig_dir.join(format!("{}.{ext}", f.stem));
+                    let outcome = match render::encode(fig, format, REPORT_DPI) {
+                        Ok(bytes) => write_atomically(&path, &bytes).map(|()| Ok(())),
+                        Err(e) => Ok(Err(e.to_string())),
+                    };
+                    (path, outcome)
+                })
+                .collect(),
+                Err(_) => Vec::new(),
+            };
+            Drawn {
+                grain: f.grain,
+                kind: f.kind,
+                stem: f.stem,
+                problem: f.figure.err(),
+                files,
+            }
         })
         .collect();
-    for f in &figures {
-        if let Err(e) = &f.figure {
-            problems.push(format!("{} {}: {e}", f.grain, f.kind.name()));
-        }
-    }
-    for (path, bytes) in encoded.into_iter().flatten() {
-        match bytes {
-            Ok(bytes) => {
-                write_atomically(&path, &bytes)?;
-                written.push(path);
+    let mut written = Vec::new();
+    let mut problems: Vec<String> = drawn
+        .iter()
+        .filter_map(|d| {
+            d.problem
+                .as_ref()
+                .map(|e| format!("{} {}: {e}", d.grain, d.kind.name()))
+        })
+        .collect();
+    for d in &mut drawn {
+        for (path, outcome) in std::mem::take(&mut d.files) {
+            match outcome? {
+                Ok(()) => written.push(path),
+                Err(e) => problems.push(format!("{}: {e}", path.display())),
             }
-            Err(e) => problems.push(format!("{}: {e}", path.display())),
         }
     }
-    let blocks = report_blocks(project, run, &figures);
+    let entries: Vec<FigureEntry<'_>> = drawn
+        .iter()
+        .map(|d| FigureEntry {
+            grain: &d.grain,
+            kind: d.kind,
+            stem: &d.stem,
+            figure: d.problem.as_deref().map_or(Ok(None), Err),
+        })
+        .collect();
+    let blocks = blocks_of(project, run, &entries);
+    let svg_of = |stem: &str, _: &str| {
+        std::fs::read_to_string(fig_dir.join(format!("{stem}.svg"))).unwrap_or_default()
+    };
     let markdown = dir.join("report.md");
     let html = dir.join("report.html");
     write_atomically(&markdown, to_markdown(&blocks).as_bytes())?;
-    write_atomically(&html, to_html(&blocks).as_bytes())?;
+    write_atomically_streamed(&html, |out| write_html(&blocks, &svg_of, out))?;
     Ok(ReportFiles {
         markdown,
         html,
