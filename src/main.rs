@@ -12,8 +12,17 @@ use clap::{Parser, Subcommand};
 /// Consolute: from micrographs and microprobe analyses of exsolved crystals to reintegrated
 /// bulk compositions and solvus temperatures.
 #[derive(Debug, Parser)]
-#[command(name = "consolute", version, about)]
+#[command(
+    name = "consolute",
+    version,
+    about,
+    args_conflicts_with_subcommands = true
+)]
 struct Cli {
+    /// Project file to open in the workbench (with no command). Without it, the last project
+    /// opened, or the bundled demo.
+    #[arg(value_name = "PROJECT")]
+    project: Option<std::path::PathBuf>,
     #[command(subcommand)]
     command: Option<Command>,
 }
@@ -53,7 +62,14 @@ fn main() -> ExitCode {
         Some(Command::Figure(args)) => cli::figure::run(&args),
         Some(Command::PxTemp(args)) => cli::px_temp::run(&args),
         // No subcommand: the workbench window, on the last project or the bundled demo.
-        None => workbench::run(None).map_err(anyhow::Error::from),
+        None => match cli.project {
+            Some(p) if !p.is_file() => Err(anyhow::anyhow!(
+                "{}: no such project file; give the path of a project .json, or no path to open \
+                 the last project",
+                p.display()
+            )),
+            project => workbench::run(project).map_err(anyhow::Error::from),
+        },
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

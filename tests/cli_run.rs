@@ -81,3 +81,24 @@ fn a_broken_project_file_is_reported_with_its_location() {
     assert!(stderr.contains("bad.json:3:"), "{stderr}");
     assert!(!stderr.contains("panicked"));
 }
+
+#[test]
+fn a_project_path_that_is_not_there_is_refused_before_any_window_opens() {
+    // `consolute PROJECT` opens that project in the workbench; a wrong path is an error naming
+    // it (not a silent fall-back to another project, and no window, so no display is needed).
+    let out = consolute(&["/no/such/folder/study.json"]);
+    assert!(!out.status.success());
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.starts_with("error: /no/such/folder/study.json: no such project file"),
+        "{err}"
+    );
+    assert!(!err.contains("panicked"), "{err}");
+    // A subcommand is still a subcommand, not a project path.
+    let out = consolute(&["models"]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+}
