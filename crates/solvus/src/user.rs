@@ -18,8 +18,9 @@
 //! `ideal_mixing` is `molecular` or `al_avoidance`; `kind` (`binary` or `ternary`) may be left
 //! out, in which case a model with any An term is ternary. Margules terms left out are zero;
 //! `ws` and `wv` default to zero. Optional `range` (`temperature_c`, `pressure_kbar`,
-//! `max_x_an`) and `coherent` (`eta`, `modulus_gpa`, `molar_volume_j_per_bar`) follow the
-//! structures of the same names. Every error names the file, line and column.
+//! `max_x_an`; at most 2000 °C and 100 kbar) and `coherent` (`eta`, `modulus_gpa`,
+//! `molar_volume_j_per_bar`) follow the structures of the same names. Every error names the
+//! file, line and column.
 
 use std::path::{Path, PathBuf};
 
@@ -29,6 +30,14 @@ use crate::SolvusError;
 use crate::model::{
     BUILTIN_IDS, CoherentStrain, IdealMixing, MargulesSet, ModelKind, ModelRange, SolutionModel,
 };
+
+/// Highest temperature a user model's range may reach, °C: feldspars melt below about 1600 °C
+/// at crustal pressures (common practice), so a higher end is a typing slip, not a model.
+const MAX_RANGE_TEMPERATURE_C: f64 = 2000.0;
+
+/// Highest pressure a user model's range may reach, kbar: alkali feldspar and plagioclase are
+/// not stable far into the upper mantle (common practice); a higher end is a typing slip.
+const MAX_RANGE_PRESSURE_KBAR: f64 = 100.0;
 
 #[derive(Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -153,10 +162,26 @@ impl SolutionModel {
                         "range.temperature_c must be [low, high] in C with low < high".into(),
                     ));
                 }
+                if t1 > MAX_RANGE_TEMPERATURE_C {
+                    return Err(fail(
+                        "temperature_c",
+                        format!(
+                            "range.temperature_c ends at {t1} C, above the {MAX_RANGE_TEMPERATURE_C} C a feldspar model can mean (a typing slip?)"
+                        ),
+                    ));
+                }
                 if !(p0.is_finite() && p1.is_finite() && p0 >= 0.0 && p0 <= p1) {
                     return Err(fail(
                         "pressure_kbar",
                         "range.pressure_kbar must be [low, high] in kbar, 0 <= low <= high".into(),
+                    ));
+                }
+                if p1 > MAX_RANGE_PRESSURE_KBAR {
+                    return Err(fail(
+                        "pressure_kbar",
+                        format!(
+                            "range.pressure_kbar ends at {p1} kbar, above the {MAX_RANGE_PRESSURE_KBAR} kbar a feldspar model can mean (a typing slip?)"
+                        ),
                     ));
                 }
                 if !(0.0..=1.0).contains(&r.max_x_an) {
