@@ -980,12 +980,8 @@ pub fn segment_colour(
             &mut warnings,
         )
         .map(|mut u| {
-            let overlap = |a: Option<[f64; 2]>, b: Option<[f64; 2]>| match (a, b) {
-                (Some(a), Some(b)) => a[0] <= b[1] && b[0] <= a[1],
-                _ => true,
-            };
             u.disagrees = (0..classes).any(|k| {
-                !overlap(
+                crate::bootstrap::intervals_disagree(
                     phases[k].area_fraction_ci95,
                     u.area_fraction_ci95.as_ref().map(|c| c[k]),
                 )

@@ -605,11 +605,7 @@ pub fn segment_region(
     let unmixing = if s.classes == 2 {
         let u = pure.and_then(|p| unmix(&p, &hist, &tiles, s));
         if let Some(u) = &u {
-            let overlap = |a: Option<[f64; 2]>, b: Option<[f64; 2]>| match (a, b) {
-                (Some(a), Some(b)) => a[0] <= b[1] && b[0] <= a[1],
-                _ => true,
-            };
-            let disagrees = !overlap(
+            let disagrees = crate::bootstrap::intervals_disagree(
                 phases[1].area_fraction_ci95,
                 u.area_fraction_ci95.map(|c| c[1]),
             );
@@ -1328,5 +1324,45 @@ mod tests {
         };
         let err = segment(&plane, &Mask::full(32, 32), &settings, &Control::none()).unwrap_err();
         assert!(err.to_string().contains("strictly increasing"), "{err}");
+    }
+
+    #[test]
+    fn two_grey_levels_without_noise_or_blur_are_split_as_constructed() {
+        // Source: the construction. Diagonal lamellae 15 of every 50 px along x + y on a 500 px
+        // wide image: exactly 30 % of every row, two grey levels and nothing between them.
+        // Both ways round (thin phase bright, thin phase dark). Before, the smoothing window of
+        // the mode search reached across the level into the other class's spike, so both
+        // modes landed beside the larger spike and every pixel went to one phase.
+        let (w, h) = (500u32, 400u32);
+        for (thin, wide) in [(42000u16, 21000u16), (21000, 42000)] {
+            let data: Vec<u16> = (0..h)
+                .flat_map(|y| (0..w).map(move |x| if (x + y) % 50 < 15 { thin } else { wide }))
+                .collect();
+            let plane = GrayPlane::new(w, h, data, u16::MAX).unwrap();
+            let seg = segment(
+                &plane,
+                &Mask::full(w, h),
+                &SegmentSettings::default(),
+                &Control::none(),
+            )
+            .unwrap();
+            let bright = seg.phases[1].area_fraction;
+            let expected = if thin > wide { 0.3 } else { 0.7 };
+            assert!((bright - expected).abs() < 1e-12, "{thin}: {bright}");
+            // The level lies between the two grey values, and nothing is flagged: the
+            // unmixing estimate equals the classification to rounding.
+            assert!(
+                21000 <= seg.levels[0] && seg.levels[0] < 42000,
+                "{:?}",
+                seg.levels
+            );
+            assert!(
+                seg.warnings
+                    .iter()
+                    .all(|w| !w.contains("no pixels") && !w.contains("disagree")),
+                "{:?}",
+                seg.warnings
+            );
+        }
     }
 }

@@ -175,18 +175,23 @@ pub fn refine_levels_to_mode_midpoints(
 ) -> Vec<u16> {
     let counts = h.counts();
     let n = counts.len();
-    // Moving sum via prefix counts.
-    let smoothed = |b: usize| -> u64 {
-        let lo = b.saturating_sub(smooth_bins);
-        let hi = (b + smooth_bins + 1).min(n);
+    // Moving sum via prefix counts, kept inside the class: a window reaching across the level
+    // would let the other class's peak decide this class's mode.
+    let smoothed = |b: usize, class_lo: usize, class_hi: usize| -> u64 {
+        let lo = b.saturating_sub(smooth_bins).max(class_lo);
+        let hi = (b + smooth_bins + 1).min(n).min(class_hi);
         h.range_count_sum(lo, hi).0
     };
+    // The peak of the smoothed counts; among equal sums (a narrow peak inside every window of
+    // a plateau), the bin with the most counts itself, then the lowest.
     let modes: Vec<Option<usize>> = h
         .class_bins(levels)
         .into_iter()
         .map(|(lo, hi)| {
             (lo < hi)
-                .then(|| (lo..hi).max_by_key(|&b| (smoothed(b), std::cmp::Reverse(b))))
+                .then(|| {
+                    (lo..hi).max_by_key(|&b| (smoothed(b, lo, hi), counts[b], std::cmp::Reverse(b)))
+                })
                 .flatten()
         })
         .collect();
