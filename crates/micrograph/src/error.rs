@@ -30,7 +30,10 @@ pub enum MicrographError {
         detail: String,
     },
     /// The file is an image but decoding failed (truncated, corrupt, unsupported compression).
-    #[error("{path}: cannot decode the image: {detail}")]
+    #[error(
+        "{path}: cannot decode the image: {detail}. The file is damaged or incomplete: copy it \
+         again, or export it again from the acquisition software"
+    )]
     Decode {
         /// The file.
         path: PathBuf,

@@ -372,7 +372,7 @@ fn map_image_error(
         },
         ImageError::IoError(e) => MicrographError::Decode {
             path: path.to_path_buf(),
-            detail: format!("{e} (is the file truncated?)"),
+            detail: format!("{e} (the file ends early: truncated?)"),
         },
         ImageError::Unsupported(e) => MicrographError::UnsupportedFormat {
             path: path.to_path_buf(),
@@ -380,9 +380,32 @@ fn map_image_error(
         },
         other => MicrographError::Decode {
             path: path.to_path_buf(),
-            detail: other.to_string(),
+            detail: plain_decoder_text(&other.to_string()),
         },
     }
+}
+
+/// A decoder's message in plain words: a chunk named by its Rust debug form
+/// (`ChunkType { type: IHDR, critical: true, ... } chunk`) becomes `the IHDR chunk`, and a
+/// trailing full stop goes (the error adds its own sentence).
+fn plain_decoder_text(text: &str) -> String {
+    let mut out = text.to_string();
+    while let Some(start) = out.find("ChunkType { type: ") {
+        let name_at = start + "ChunkType { type: ".len();
+        let Some(end) = out[start..].find('}').map(|e| start + e + 1) else {
+            break;
+        };
+        let name: String = out[name_at..end]
+            .chars()
+            .take_while(|c| c.is_ascii_alphanumeric())
+            .collect();
+        let tail = out[end..]
+            .strip_prefix(" chunk")
+            .unwrap_or(&out[end..])
+            .to_string();
+        out = format!("{}the {name} chunk{tail}", &out[..start]);
+    }
+    out.trim_end_matches('.').trim().to_string()
 }
 
 /// Converts a decoded image, keeping 16-bit data at full depth.

@@ -87,6 +87,21 @@ fn truncated_png_is_an_error() {
 }
 
 #[test]
+fn a_damaged_png_says_what_to_do_in_plain_words() {
+    // A PNG whose header chunk fails its CRC (ISO/IEC 15948, PNG §5.3: every chunk carries a
+    // CRC-32 of its type and data), kept from the image_file fuzz run. The png crate names the
+    // chunk by its Rust debug form; the message names it in words and says what to do.
+    let p = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("../../tests/data/fuzz_regressions/image_file/err-png-ihdr-crc.png");
+    let err = load(&p, &LoadOptions::default()).unwrap_err();
+    let text = err.to_string();
+    assert!(matches!(err, MicrographError::Decode { .. }), "{text}");
+    assert!(text.contains("the IHDR chunk"), "{text}");
+    assert!(!text.contains("ChunkType {"), "{text}");
+    assert!(text.contains("export it again"), "{text}");
+}
+
+#[test]
 fn huge_dimensions_in_png_header_exceed_the_budget() {
     let p = tmp("huge.png", &png_header_claiming(100_000, 100_000));
     let err = load(&p, &LoadOptions::default()).unwrap_err();
