@@ -70,7 +70,7 @@ pub enum ImportErrorKind {
     )]
     NoOxideColumns,
     /// Two columns mean the same oxide or id.
-    #[error("column '{name}' repeats column {first_column} ('{first_name}')")]
+    #[error("column '{}' repeats column {first_column} ('{}')", shown(.name), shown(.first_name))]
     DuplicateColumn {
         /// This header.
         name: String,
@@ -92,7 +92,9 @@ pub enum ImportErrorKind {
     },
     /// A value cell holds text that is not a number nor a recognised not-determined mark.
     #[error(
-        "'{text}' in column '{column_name}' is not a number (use a number, 'n.d.', 'bdl' or '<limit')"
+        "'{}' in column '{}' is not a number (use a number, 'n.d.', 'bdl' or '<limit')",
+        shown(.text),
+        shown(.column_name)
     )]
     BadNumber {
         /// The column header.
@@ -106,6 +108,25 @@ pub enum ImportErrorKind {
     /// The header is there but no data row follows.
     #[error("the file has a header but no analyses")]
     NoRows,
+}
+
+/// A cell's text as a message quotes it: control characters escaped (a tab reads `\t`, a
+/// stray byte `\u{1b}`), and cut after 40 characters, so the message stays one readable line.
+fn shown(text: &str) -> String {
+    const LONGEST: usize = 40;
+    let mut out = String::new();
+    for (i, c) in text.chars().enumerate() {
+        if i == LONGEST {
+            out.push('…');
+            break;
+        }
+        if c.is_control() {
+            out.extend(c.escape_default());
+        } else {
+            out.push(c);
+        }
+    }
+    out
 }
 
 /// Read spot analyses from a file.

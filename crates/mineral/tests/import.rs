@@ -103,6 +103,23 @@ fn a_bad_number_names_file_line_column_and_text() {
 }
 
 #[test]
+fn a_bad_cell_with_control_bytes_is_quoted_on_one_readable_line() {
+    // A cell holding an escape byte, a form feed and a long run of text (as a fuzz run fed
+    // in): the message escapes the control characters and cuts the quote at 40 characters;
+    // the error keeps the cell's text whole.
+    let cell = format!("6\u{1b}[31m\u{c}{}", "x".repeat(60));
+    let err = parse(&format!("SiO2,Al2O3\n{cell},18.4\n")).expect_err("bad number");
+    let text = err.to_string();
+    assert!(text.contains("'6\\u{1b}[31m\\u{c}xxx"), "{text}");
+    assert!(text.contains("x…' in column 'SiO2'"), "{text}");
+    assert!(!text.chars().any(char::is_control), "{text:?}");
+    assert!(
+        matches!(&err.kind, ImportErrorKind::BadNumber { text, .. } if *text == cell),
+        "{err:?}"
+    );
+}
+
+#[test]
 fn nan_and_infinity_are_not_numbers() {
     for text in ["NaN", "inf", "-infinity", "0x10", "1e999"] {
         let err = parse(&format!("spot,SiO2\na,{text}\n")).expect_err(text);
