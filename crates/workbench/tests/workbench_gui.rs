@@ -983,3 +983,32 @@ fn a_fitted_image_is_fitted_again_when_the_canvas_changes_size_and_a_chosen_zoom
     settle(&mut h, Duration::from_secs(120));
     assert!((zoom(&mut h) - chosen).abs() < 1e-3 * chosen);
 }
+
+#[test]
+fn each_stage_with_a_canvas_shows_the_whole_micrograph_at_first() {
+    // The fitted view: both far corners of the image inside the canvas, on the Image stage and
+    // on the Phases stage (whose controls panel leaves a narrower canvas), at two window sizes.
+    for size in [vec2(1500.0, 940.0), vec2(1100.0, 800.0)] {
+        let mut h = harness_sized("whole-image", size);
+        settle(&mut h, Duration::from_secs(120));
+        for stage in ["Image", "Phases"] {
+            h.get_by_label(stage).click();
+            settle(&mut h, Duration::from_secs(120));
+            let c = h.state_mut().canvas();
+            let rect = c.canvas_rect();
+            let (w, hgt) = c.shown_size();
+            let a = c.screen_pos([0.0, 0.0]).expect("drawn");
+            let b = c.screen_pos([w as f64, hgt as f64]).expect("drawn");
+            assert!(
+                rect.expand(0.5).contains(a) && rect.expand(0.5).contains(b),
+                "{stage} at {size:?}: image {a:?}-{b:?} outside the canvas {rect:?}"
+            );
+            // And the canvas is not under the result card on the right.
+            let card_left = h.get_by_label("Result").rect().left();
+            assert!(
+                rect.right() <= card_left,
+                "{stage} at {size:?}: canvas {rect:?} runs under the card at x = {card_left}"
+            );
+        }
+    }
+}

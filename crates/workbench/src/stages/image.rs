@@ -164,6 +164,16 @@ fn distance_to_segment(p: Pos2, a: Pos2, b: Pos2) -> f32 {
 }
 
 impl ImageStage {
+    /// The canvas rectangle last drawn (screen points).
+    pub fn canvas_rect(&self) -> Rect {
+        self.last_rect
+    }
+
+    /// Width and height (pixels) of the image last drawn.
+    pub fn shown_size(&self) -> (usize, usize) {
+        self.shown_size
+    }
+
     /// Where an image point (pixels) was on screen at the last draw.
     pub fn screen_pos(&self, p: [f64; 2]) -> Option<Pos2> {
         (self.zoom > 0.0 && self.last_rect.is_positive())
@@ -505,7 +515,11 @@ impl ImageStage {
         interactive_keys: bool,
         actions: &mut Vec<Action>,
     ) -> Option<Hover> {
-        let size = ui.available_size() - vec2(0.0, 22.0);
+        // The space left that is also visible: a row above that overflowed (a toolbar wider
+        // than the panel) widens the ui beyond its clip, and a canvas sized to that would hide
+        // part of the fitted image under the next panel.
+        let visible = ui.available_rect_before_wrap().intersect(ui.clip_rect());
+        let size = visible.size() - vec2(0.0, 22.0);
         let (rect, response) =
             ui.allocate_exact_size(size.max(vec2(50.0, 50.0)), Sense::click_and_drag());
         let painter = ui.painter_at(rect);
