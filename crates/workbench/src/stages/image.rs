@@ -447,7 +447,8 @@ impl ImageStage {
         ui.checkbox(&mut self.show_classes, "Phase overlay")
             .on_hover_text("Colour each measured pixel by its phase class");
         if self.show_classes {
-            ui.add(egui::Slider::new(&mut self.opacity, 0.0..=1.0).text("opacity"));
+            ui.add(egui::Slider::new(&mut self.opacity, 0.0..=1.0))
+                .on_hover_text("Opacity of the phase overlay (0 = image only, 1 = classes only)");
         }
         ui.checkbox(&mut self.show_region, "Region outline")
             .on_hover_text("Outline the region of interest (yellow) and exclusions (red)");

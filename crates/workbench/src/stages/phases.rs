@@ -123,7 +123,7 @@ impl PhasesStage {
             .default_size(460.0)
             .min_size(320.0)
             .show(ui, |ui| {
-                egui::ScrollArea::vertical().show(ui, |ui| {
+                egui::ScrollArea::both().show(ui, |ui| {
                     self.controls_ui(ui, view, at, spec, grain, actions);
                     ui.separator();
                     self.hand_ui(ui, view, at, spec, grain, image, actions);
