@@ -31,6 +31,16 @@ use crate::model::{
     BUILTIN_IDS, CoherentStrain, IdealMixing, MargulesSet, ModelKind, ModelRange, SolutionModel,
 };
 
+/// A number as a message shows it: as written for ordinary sizes, in scientific notation beyond
+/// a million (a value like 4.4e73 would otherwise print as 74 digits).
+fn readable(v: f64) -> String {
+    if v.abs() >= 1e6 {
+        format!("{v:.3e}")
+    } else {
+        format!("{v}")
+    }
+}
+
 /// Highest temperature a user model's range may reach, °C: feldspars melt below about 1600 °C
 /// at crustal pressures (common practice), so a higher end is a typing slip, not a model.
 const MAX_RANGE_TEMPERATURE_C: f64 = 2000.0;
@@ -166,7 +176,8 @@ impl SolutionModel {
                     return Err(fail(
                         "temperature_c",
                         format!(
-                            "range.temperature_c ends at {t1} C, above the {MAX_RANGE_TEMPERATURE_C} C a feldspar model can mean (a typing slip?)"
+                            "range.temperature_c ends at {} C, above the {MAX_RANGE_TEMPERATURE_C} C a feldspar model can mean (a typing slip?)",
+                            readable(t1)
                         ),
                     ));
                 }
@@ -180,7 +191,8 @@ impl SolutionModel {
                     return Err(fail(
                         "pressure_kbar",
                         format!(
-                            "range.pressure_kbar ends at {p1} kbar, above the {MAX_RANGE_PRESSURE_KBAR} kbar a feldspar model can mean (a typing slip?)"
+                            "range.pressure_kbar ends at {} kbar, above the {MAX_RANGE_PRESSURE_KBAR} kbar a feldspar model can mean (a typing slip?)",
+                            readable(p1)
                         ),
                     ));
                 }
@@ -275,6 +287,15 @@ mod tests {
         let e = SolutionModel::from_json_str(&huge, Path::new("h.json")).unwrap_err();
         assert!(e.to_string().contains("h.json:7:"), "{e}");
         assert!(e.to_string().contains("or_ab.wh"), "{e}");
+
+        // A range ending far beyond any feldspar (a typing slip the user_model fuzz target
+        // found accepted) is refused, its value in scientific notation, not 74 digits.
+        let slip = GOOD.replace(
+            "\"margules\"",
+            "\"range\": {\"temperature_c\": [400, 4.4e73], \"pressure_kbar\": [0, 10], \"max_x_an\": 0},\n  \"margules\"",
+        );
+        let e = SolutionModel::from_json_str(&slip, Path::new("s.json")).unwrap_err();
+        assert!(e.to_string().contains("ends at 4.400e73 C"), "{e}");
 
         let builtin_id = GOOD.replace("copy-of-haselton", "tw1969");
         assert!(SolutionModel::from_json_str(&builtin_id, Path::new("b.json")).is_err());
