@@ -291,6 +291,22 @@ impl ImageStage {
         self.hover_line(ui, view, hover);
     }
 
+    /// A button that selects a tool, lit while it is the active one; pressing the active tool
+    /// again goes back to panning.
+    pub fn tool_button(&mut self, ui: &mut Ui, tool: Tool, label: &str, tip: &str) {
+        if ui
+            .selectable_label(self.tool == tool, label)
+            .on_hover_text(tip)
+            .clicked()
+        {
+            self.set_tool(if self.tool == tool && tool != Tool::Pan {
+                Tool::Pan
+            } else {
+                tool
+            });
+        }
+    }
+
     /// Region tools: include and exclude polygons, vertex editing, the scale bar.
     fn region_tools_ui(
         &mut self,
@@ -323,17 +339,7 @@ impl ImageStage {
                 "Click both ends of the micrograph's scale bar, then type its length: sets the pixel size",
             ),
         ] {
-            if ui
-                .selectable_label(self.tool == tool, label)
-                .on_hover_text(tip)
-                .clicked()
-            {
-                self.set_tool(if self.tool == tool && tool != Tool::Pan {
-                    Tool::Pan
-                } else {
-                    tool
-                });
-            }
+            self.tool_button(ui, tool, label, tip);
         }
         let n_in = spec.region.include.len();
         let n_out = spec.region.exclude.len();

@@ -612,13 +612,7 @@ impl PhasesStage {
                     "Drag to paint (right-drag pans)",
                 ),
             ] {
-                if ui
-                    .selectable_label(image.tool == tool, label)
-                    .on_hover_text(tip)
-                    .clicked()
-                {
-                    image.set_tool(tool);
-                }
+                image.tool_button(ui, tool, label, tip);
             }
             if image.tool == Tool::Brush {
                 ui.add(
