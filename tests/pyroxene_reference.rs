@@ -121,20 +121,7 @@ fn standard_errors_follow_the_published_values_and_mg_number() {
         assert_eq!(t.see_for_mg_number(0.60), all, "{}", t.id());
     }
     // the result carries the error for its clinopyroxene: Mg# 0.9/(0.9+0.3) = 0.75 → subset value
-    let cpx = solvus::pyroxene::PyroxeneCations {
-        si: 2.0,
-        mg: 0.9,
-        fe_total: 0.3,
-        ca: 0.8,
-        ..Default::default()
-    };
-    let opx = solvus::pyroxene::PyroxeneCations {
-        si: 2.0,
-        mg: 1.6,
-        fe_total: 0.35,
-        ca: 0.04,
-        ..Default::default()
-    };
+    let (cpx, opx) = simple_pair();
     let t = pyroxene_temperature(T::BreyKohler1990, &cpx, Some(&opx), 15.0).expect("temperature");
     assert_eq!(t.see_c, 50.0);
 }
@@ -145,20 +132,7 @@ fn a_result_far_outside_the_calibration_is_flagged() {
     // (from memory, as the calibration table says). At 2 kbar every result is outside the
     // pressure range, so the warning must name the range; at 30 kbar a result inside both
     // ranges carries no calibration warning.
-    let cpx = solvus::pyroxene::PyroxeneCations {
-        si: 2.0,
-        mg: 0.9,
-        fe_total: 0.3,
-        ca: 0.8,
-        ..Default::default()
-    };
-    let opx = solvus::pyroxene::PyroxeneCations {
-        si: 2.0,
-        mg: 1.6,
-        fe_total: 0.35,
-        ca: 0.04,
-        ..Default::default()
-    };
+    let (cpx, opx) = simple_pair();
     let low = pyroxene_temperature(PyroxeneThermometer::BreyKohler1990, &cpx, Some(&opx), 2.0)
         .expect("temperature");
     assert!(
