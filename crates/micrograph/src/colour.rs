@@ -15,7 +15,7 @@ use serde::{Deserialize, Serialize};
 
 use crate::bootstrap::{TileStats, fraction_ci95, statistic_ci95};
 use crate::control::Control;
-use crate::correct::{Flattening, fit_gain_surface, solve, surface_at, terms};
+use crate::correct::{Flattening, fit_gain_surface, flat_surface, solve, surface_at};
 use crate::error::{MicrographError, Result};
 use crate::histogram::Histogram;
 use crate::load::{GrayPlane, Micrograph, Pixels};
@@ -538,18 +538,8 @@ pub fn flatten_colour(
             }
         }
     }
-    if samples.len() < 50 {
-        return Err(MicrographError::EmptyRegion {
-            reason: format!(
-                "only {} sample pixels for the flattening fit",
-                samples.len()
-            ),
-        });
-    }
-    let nt = terms(0.0, 0.0, degree).len();
     let gain_at = |coef: &[f64], u: f64, v: f64| surface_at(coef, degree, u, v);
-    let mut coef = vec![0.0; nt];
-    coef[0] = 1.0;
+    let mut coef = flat_surface(samples.len(), degree)?;
     for _ in 0..3 {
         control.check()?;
         // Classify the corrected samples; class mean luminance of the phases.

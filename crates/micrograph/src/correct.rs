@@ -73,6 +73,19 @@ pub(crate) fn surface_at(coefficients: &[f64], degree: u8, u: f64, v: f64) -> f6
         .sum()
 }
 
+/// The starting surface of a flattening fit (gain 1 everywhere), once the region has given
+/// enough sample pixels (50) to fit one.
+pub(crate) fn flat_surface(samples: usize, degree: u8) -> Result<Vec<f64>> {
+    if samples < 50 {
+        return Err(MicrographError::EmptyRegion {
+            reason: format!("only {samples} sample pixels for the flattening fit"),
+        });
+    }
+    let mut coef = vec![0.0; terms(0.0, 0.0, degree).len()];
+    coef[0] = 1.0;
+    Ok(coef)
+}
+
 /// Least-squares fit of a polynomial surface of `degree` to ratios `(u, v, r)` (normal
 /// equations), scaled so that the surface averages 1 over the points `(u, v)` of `normalise_over`.
 pub(crate) fn fit_gain_surface(
@@ -180,17 +193,7 @@ pub fn flatten(
             }
         }
     }
-    if samples.len() < 50 {
-        return Err(MicrographError::EmptyRegion {
-            reason: format!(
-                "only {} sample pixels for the flattening fit",
-                samples.len()
-            ),
-        });
-    }
-    let nt = terms(0.0, 0.0, degree).len();
-    let mut coef = vec![0.0; nt];
-    coef[0] = 1.0;
+    let mut coef = flat_surface(samples.len(), degree)?;
     for _ in 0..3 {
         control.check()?;
         let gain = |u: f64, v: f64| surface_at(&coef, degree, u, v);
