@@ -1104,6 +1104,26 @@ fn marks_by_point(count: &project::PointCount, n: usize) -> Vec<Option<&project:
     marks
 }
 
+/// The region item nearest a screen position, within `radius` points: `distances` gives each
+/// polygon's candidates as (index, distance in points).
+fn nearest_in_region<I: Iterator<Item = (usize, f32)>>(
+    spec: &MicrographSpec,
+    radius: f32,
+    distances: impl Fn(&micrograph::roi::Polygon) -> I,
+) -> Option<(RegionList, usize, usize)> {
+    let mut best: Option<((RegionList, usize, usize), f32)> = None;
+    for list in [RegionList::Include, RegionList::Exclude] {
+        for (pi, poly) in region_list(spec, list).iter().enumerate() {
+            for (i, d) in distances(poly) {
+                if d < radius && best.is_none_or(|(_, b)| d < b) {
+                    best = Some(((list, pi, i), d));
+                }
+            }
+        }
+    }
+    best.map(|(k, _)| k)
+}
+
 /// The region vertex nearest a screen position, within `radius` points.
 fn nearest_vertex(
     spec: &MicrographSpec,
@@ -1111,18 +1131,14 @@ fn nearest_vertex(
     to_screen: impl Fn(Pos2) -> Pos2,
     radius: f32,
 ) -> Option<(RegionList, usize, usize)> {
-    let mut best: Option<((RegionList, usize, usize), f32)> = None;
-    for list in [RegionList::Include, RegionList::Exclude] {
-        for (pi, poly) in region_list(spec, list).iter().enumerate() {
-            for (vi, v) in poly.0.iter().enumerate() {
-                let d = to_screen(to_pos(*v)).distance(p);
-                if d < radius && best.is_none_or(|(_, b)| d < b) {
-                    best = Some(((list, pi, vi), d));
-                }
-            }
-        }
-    }
-    best.map(|(k, _)| k)
+    nearest_in_region(spec, radius, |poly| {
+        poly.0
+            .iter()
+            .map(|v| to_screen(to_pos(*v)).distance(p))
+            .enumerate()
+            .collect::<Vec<_>>()
+            .into_iter()
+    })
 }
 
 /// The region edge nearest a screen position, within `radius` points: the list, polygon and
@@ -1133,21 +1149,17 @@ fn nearest_edge(
     to_screen: impl Fn(Pos2) -> Pos2,
     radius: f32,
 ) -> Option<(RegionList, usize, usize)> {
-    let mut best: Option<((RegionList, usize, usize), f32)> = None;
-    for list in [RegionList::Include, RegionList::Exclude] {
-        for (pi, poly) in region_list(spec, list).iter().enumerate() {
-            let n = poly.0.len();
-            for vi in 0..n {
+    nearest_in_region(spec, radius, |poly| {
+        let n = poly.0.len();
+        (0..n)
+            .map(|vi| {
                 let a = to_screen(to_pos(poly.0[vi]));
                 let b = to_screen(to_pos(poly.0[(vi + 1) % n]));
-                let d = distance_to_segment(p, a, b);
-                if d < radius && best.is_none_or(|(_, bd)| d < bd) {
-                    best = Some(((list, pi, vi + 1), d));
-                }
-            }
-        }
-    }
-    best.map(|(k, _)| k)
+                (vi + 1, distance_to_segment(p, a, b))
+            })
+            .collect::<Vec<_>>()
+            .into_iter()
+    })
 }
 
 /// Outlines of the hand edits: polygons in their phase's colour (dashed white when erasing),
